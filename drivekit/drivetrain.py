@@ -118,6 +118,7 @@ class DriveTrain:
     ) -> None:
         self.stages = tuple(stages)
         self.name = name
+        self._output_arg = output
         self._assign_roles(list(stages))
         if fluid is not None and not isinstance(fluid, Fluid):
             raise ParameterError(f"`fluid`: got {type(fluid).__name__}, expected a Fluid")
@@ -168,6 +169,35 @@ class DriveTrain:
             raise ParameterError("`stages`: a CentrifugalPump needs at least one Pipe after it to pump into")
         if self.pipes and not self.is_pump:
             raise ParameterError(f"`stages`: a Pipe follows a {type(self.machine).__name__}; pipes follow a pump")
+
+    def stage_map(self) -> dict[str, Any]:
+        """The stages by role key: ``drive``, ``motor``, ``transmission``, ``machine``,
+        ``pipe1``, ``pipe2``, ..., ``sensor`` and ``fluid`` (absent roles left out)."""
+        roles: dict[str, Any] = {}
+        for key, stage in (
+            ("drive", self.drive),
+            ("motor", self.motor),
+            ("transmission", self.transmission),
+            ("machine", self.machine),
+        ):
+            if stage is not None:
+                roles[key] = stage
+        for i, p in enumerate(self.pipes):
+            roles[f"pipe{i + 1}"] = p
+        if self.sensor is not None:
+            roles["sensor"] = self.sensor
+        if self.is_pump:
+            roles["fluid"] = self.fluid
+        return roles
+
+    def with_stage(self, role: str, stage: Any) -> DriveTrain:
+        """A new drive train with the stage of ``role`` (a :meth:`stage_map` key) replaced by ``stage``."""
+        roles = self.stage_map()
+        if role not in roles:
+            raise ParameterError(f"`role`: got {role!r}, expected one of {tuple(roles)}")
+        roles[role] = stage
+        fluid = roles.pop("fluid", self.fluid)
+        return DriveTrain(*roles.values(), fluid=fluid, output=self._output_arg, name=self.name)
 
     @property
     def is_pump(self) -> bool:
