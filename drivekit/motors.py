@@ -76,8 +76,18 @@ class DCMotor:
     input_quantity = "armature voltage"
     input_unit = "V"
 
+    #: Shortest electrical time constant L/R accepted other than 0 [s]; below it
+    #: the model is numerically stiff to no purpose: give L = 0 instead.
+    MIN_ELECTRICAL_TIME_CONSTANT = 1e-7
+
     def __post_init__(self) -> None:
         convert_fields(self)
+        tau = np.asarray(self.L / self.R)
+        if np.any((tau > 0) & (tau < self.MIN_ELECTRICAL_TIME_CONSTANT)):
+            raise ParameterError(
+                f"`L`: got {float(np.min(self.L)):.3g} H, expected 0 (negligible) or an electrical time "
+                f"constant L/R of at least {self.MIN_ELECTRICAL_TIME_CONSTANT:g} s"
+            )
 
     @property
     def electrical_time_constant(self) -> Any:

@@ -283,6 +283,13 @@ def _solve_for_input(train: DriveTrain, u: float) -> tuple[float, float]:
     if w_hi <= 0:
         return 0.0, 0.0
     if not train.is_pump:
+        stall = float(_steady_residuals(train, supply, 0.0, 0.0)[0])
+        if stall <= 0:
+            need = float(train.torque_at_motor(train.machine_torque(0.0, 0.0), 1.0))
+            raise OperatingPointError(
+                f"`u`: at {u:g} {train.input_unit} the motor gives {need + stall:.4g} N*m at standstill, "
+                f"{-stall:.4g} N*m short of the {need:.4g} N*m the machine needs to turn: it stalls"
+            )
         lo, hi = 0.0, w_hi
         for _ in range(200):
             mid = 0.5 * (lo + hi)

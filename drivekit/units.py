@@ -165,7 +165,7 @@ def to_si(value: Any, name: str, spec: ParamSpec) -> Any:
 
 
 def _quantity_to_si(q: pint.Quantity, name: str, spec: ParamSpec, given: Any) -> Any:
-    units = str(q.units)
+    units = {name for name, _ in q.unit_items()}
     target = ureg.Unit(spec.unit)
     try:
         if spec.kind == "shaft_speed" and "hertz" in units:
