@@ -1,0 +1,29 @@
+"""Jupyter widgets for drivekit: a design model, parameter panels, live views and boards.
+
+The widgets only call the core and draw. One :class:`DesignModel` holds the
+design and its one computed result; panels edit it and views observe it.
+"""
+
+import warnings
+
+with warnings.catch_warnings():
+    # bqscales 0.3 declares a trait the way traitlets 4.1 deprecated; harmless, and not ours to fix.
+    warnings.filterwarnings("ignore", message="metadata .* was set from the constructor", category=DeprecationWarning)
+    import bqplot  # noqa: F401
+
+from .compute import BoardResult, OperatingCurves, compute_result, operating_curves
+from .model import Coalescer, DesignModel
+from .operating_view import OperatingPointView
+from .panel import ParameterPanel, ParameterRow
+
+__all__ = [
+    "BoardResult",
+    "Coalescer",
+    "DesignModel",
+    "OperatingCurves",
+    "OperatingPointView",
+    "ParameterPanel",
+    "ParameterRow",
+    "compute_result",
+    "operating_curves",
+]

@@ -1,0 +1,152 @@
+"""The one computation per design change, shared by every view.
+
+:func:`compute_result` only calls the core (operating point, linearisation,
+loop analysis); the views read its :class:`BoardResult` and draw. Nothing
+here is physics of its own.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from typing import Any
+
+import numpy as np
+
+from ..design import Design
+from ..linear import LinearModel
+
+__all__ = ["BoardResult", "OperatingCurves", "compute_result", "operating_curves"]
+
+#: Pump speeds drawn, as fractions of the speed of the maker's curve. [-]
+CURVE_SPEED_FRACTIONS = (1.0, 0.9, 0.8, 0.7, 0.6)
+#: Points along the flow axis of the pump and system curves. [-]
+CURVE_POINTS = 121
+
+
+@dataclasses.dataclass(frozen=True, eq=False)
+class OperatingCurves:
+    """Pump curves at several speeds, the system curve and where they meet.
+
+    Attributes
+    ----------
+    flow : numpy.ndarray
+        Flow axis. [m**3/s]
+    speeds : numpy.ndarray
+        Pump speed of each curve. [rad/s]
+    pump_head : numpy.ndarray
+        Pump head, one row per speed, NaN beyond the maker's curve. [m]
+    system_head : numpy.ndarray
+        Head the pipe line needs at each flow. [m]
+    point_flow, point_head, point_speed : float
+        The operating point. [m**3/s], [m], [rad/s]
+    point_curve : numpy.ndarray
+        Pump head at the operating speed over ``flow``. [m]
+    min_flow : float
+        Pump minimum continuous flow at the operating speed (NaN if not given). [m**3/s]
+    min_speed : float
+        Least pump speed whose shut-off head reaches the static head. [rad/s]
+    """
+
+    flow: np.ndarray
+    speeds: np.ndarray
+    pump_head: np.ndarray
+    system_head: np.ndarray
+    point_flow: float
+    point_head: float
+    point_speed: float
+    point_curve: np.ndarray
+    min_flow: float
+    min_speed: float
+
+
+@dataclasses.dataclass(frozen=True, eq=False)
+class BoardResult:
+    """Everything the views show for one design.
+
+    Attributes
+    ----------
+    design : Design
+        The design this result belongs to.
+    operating_point : OperatingPoint
+        Where the plant runs.
+    plant : LinearModel
+        The plant linearised there (input: controller output, output: measured value).
+    curves : OperatingCurves or None
+        Pump and system curves; ``None`` for a machine that is not a pump.
+    cautions : tuple of str
+        Plain-words cautions from the operating point and the loop.
+    """
+
+    design: Design
+    operating_point: Any
+    plant: LinearModel
+    curves: OperatingCurves | None
+    cautions: tuple[str, ...] = ()
+
+
+def operating_curves(design: Design, op: Any) -> OperatingCurves | None:
+    """Pump curves, system curve and operating point of a pump train, from the core.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    op : OperatingPoint
+        Its operating point.
+
+    Returns
+    -------
+    OperatingCurves or None
+        ``None`` when the machine is not a pump.
+    """
+    train = design.train
+    if not train.is_pump:
+        return None
+    pump = train.machine
+    rated = float(pump.speed)
+    speeds = np.array([rated * f for f in CURVE_SPEED_FRACTIONS])
+    top = max(float(pump.curve_end_flow(rated)), op.flow * 1.1)
+    flow = np.linspace(0.0, top, CURVE_POINTS)
+    w = op.machine_speed
+    min_ratio = float(pump.speed_ratio_for(0.0, max(train.static_head, 0.0)))
+    return OperatingCurves(
+        flow=flow,
+        speeds=speeds,
+        pump_head=np.asarray(train.pump_curves(speeds, flow), dtype=float),
+        system_head=np.asarray(train.system_curve(flow), dtype=float),
+        point_flow=op.flow,
+        point_head=op.head,
+        point_speed=w,
+        point_curve=np.asarray(train.pump_curves([w], flow), dtype=float)[0],
+        min_flow=float(pump.min_flow(w)),
+        min_speed=min_ratio * rated if math.isfinite(min_ratio) else math.nan,
+    )
+
+
+def compute_result(design: Design) -> BoardResult:
+    """Compute everything the views show, once, for one design.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+
+    Returns
+    -------
+    BoardResult
+
+    Raises
+    ------
+    OperatingPointError
+        No steady state exists for the design's operating target.
+    """
+    op = design.operating_point()
+    plant = design.train.linearize(op)
+    return BoardResult(
+        design=design,
+        operating_point=op,
+        plant=plant,
+        curves=operating_curves(design, op),
+        cautions=tuple(op.cautions),
+    )
