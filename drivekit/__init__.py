@@ -4,6 +4,8 @@ The core (this package) is plain computation with SI floats inside and units
 at the boundary; :mod:`drivekit.widgets` draws it in Jupyter.
 """
 
+from . import demo, units
+from .design import Design, DesignInfo, Targets
 from .drives import VariableSpeedDrive
 from .drivetrain import DriveTrain
 from .fluid import Fluid
@@ -24,6 +26,8 @@ __all__ = [
     "CentrifugalPump",
     "Conveyor",
     "DCMotor",
+    "Design",
+    "DesignInfo",
     "DriveTrain",
     "FactoredForm",
     "Fan",
@@ -40,7 +44,10 @@ __all__ = [
     "PressureSensor",
     "PumpCurve",
     "SpeedSensor",
+    "Targets",
     "Transmission",
     "VariableSpeedDrive",
+    "demo",
+    "units",
     "ureg",
 ]
