@@ -150,7 +150,7 @@ def _si_unit(unit: str, name: str) -> str:
     if not unit or _is_percent(unit):
         return unit
     try:
-        return str(ureg.Quantity(1.0, unit).to_base_units().units)
+        return f"{ureg.Quantity(1.0, unit).to_base_units().units:~C}"
     except (pint.UndefinedUnitError, pint.DimensionalityError, AttributeError, ValueError) as exc:
         raise ParameterError(
             f"`{name}`: could not read the unit {unit!r} ({exc}); expected a unit such as 'm**3/h'"
@@ -525,16 +525,22 @@ class StepFit:
         """The fitted model as :class:`drivekit.models.FOPDT`, ``SOPDT`` or ``IntegratingDeadTime`` (SI)."""
         from . import models
 
+        labels = {
+            "input_unit": "%" if _is_percent(self.input_unit) else self.input_si_unit,
+            "output_unit": self.output_si_unit,
+            "output_display_unit": self.output_unit,
+        }
         if self.model == "FOPDT":
-            return models.FOPDT(gain=self.gain, time_constant=self.time_constant, dead_time=self.dead_time)
+            return models.FOPDT(gain=self.gain, time_constant=self.time_constant, dead_time=self.dead_time, **labels)
         if self.model == "SOPDT":
             return models.SOPDT(
                 gain=self.gain,
                 time_constant=self.time_constant,
                 time_constant_2=self.time_constant_2,
                 dead_time=self.dead_time,
+                **labels,
             )
-        return models.IntegratingDeadTime(gain=self.gain, dead_time=self.dead_time)
+        return models.IntegratingDeadTime(gain=self.gain, dead_time=self.dead_time, **labels)
 
 
 def _half(interval: tuple[float, float]) -> float:
@@ -762,7 +768,7 @@ def fopdt(
     trend seen before the step carries on unchanged through the test; a
     short or noisy pre-step record makes that estimate uncertain
     (:attr:`StepFit.drift` reports it). The 95 % intervals assume white
-    noise and are approximate.
+    noise and leave out the uncertainty of the drift estimate: approximate.
 
     References
     ----------
