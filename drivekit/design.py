@@ -261,6 +261,17 @@ class Design:
         kind, value = self.operating
         return self.train.operating_point(**{kind: value})
 
+    def evaluate(self) -> Any:
+        """Everything the views draw and the record prints, computed once (see :func:`drivekit.evaluation.evaluate`).
+
+        Returns
+        -------
+        DesignResult
+        """
+        from .evaluation import evaluate
+
+        return evaluate(self)
+
 
 def _replace_field(obj: Any, name: str, value: Any, key: str) -> Any:
     names = {f.name for f in dataclasses.fields(obj)}

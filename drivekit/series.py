@@ -8,6 +8,7 @@ import numpy as np
 import scipy.signal
 
 from .constants import STANDARD_GRAVITY
+from .drivetrain import OUTPUTS
 from .linear import LinearModel
 from .motors import DCMotor
 
@@ -75,7 +76,7 @@ def series_model(train: DriveTrain, op: Any) -> LinearModel:
         state_stages=("series approximation",) * n,
         input_name=train.input_name,
         input_unit=train.input_unit,
-        output_name=train.linearize(op).output_name,
+        output_name=OUTPUTS[train.output][2],
         output_unit=train.output_unit,
         output_display_unit=train.output_display_unit,
     )
