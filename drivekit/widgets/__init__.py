@@ -11,19 +11,35 @@ with warnings.catch_warnings():
     warnings.filterwarnings("ignore", message="metadata .* was set from the constructor", category=DeprecationWarning)
     import bqplot  # noqa: F401
 
-from .compute import BoardResult, OperatingCurves, compute_result, operating_curves
+from .boards import LoopDesignBoard, ModelExplorationBoard
+from .compute import BoardResult, LoopData, OperatingCurves, compute_result, loop_data, operating_curves
+from .loop_views import BodeView, NyquistView, PoleZeroView, RootLocusView, SensitivityView, StepView
+from .metrics import MetricRow, MetricsTable, metric_rows
 from .model import Coalescer, DesignModel
 from .operating_view import OperatingPointView
 from .panel import ParameterPanel, ParameterRow
 
 __all__ = [
     "BoardResult",
+    "BodeView",
     "Coalescer",
     "DesignModel",
+    "LoopData",
+    "LoopDesignBoard",
+    "MetricRow",
+    "MetricsTable",
+    "ModelExplorationBoard",
+    "NyquistView",
     "OperatingCurves",
     "OperatingPointView",
     "ParameterPanel",
     "ParameterRow",
+    "PoleZeroView",
+    "RootLocusView",
+    "SensitivityView",
+    "StepView",
     "compute_result",
+    "loop_data",
+    "metric_rows",
     "operating_curves",
 ]

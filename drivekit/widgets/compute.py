@@ -11,12 +11,25 @@ import dataclasses
 import math
 from typing import Any
 
+import control
 import numpy as np
 
 from ..design import Design
 from ..linear import LinearModel
 
-__all__ = ["BoardResult", "OperatingCurves", "compute_result", "operating_curves"]
+__all__ = ["BoardResult", "LoopData", "OperatingCurves", "compute_result", "loop_data", "operating_curves"]
+
+#: Pade order standing in for the dead time in time responses, poles and root locus. [-]
+PADE_ORDER = 4
+#: Setpoint step size as a fraction of the operating value of the measurement. [-]
+SETPOINT_STEP = 0.05
+#: Load step at the plant input as a fraction of the output span (or of 100 % without one). [-]
+LOAD_STEP = 0.05
+#: Points of the time and frequency grids. [-]
+TIME_POINTS = 400
+FREQUENCY_POINTS = 400
+#: Controller-gain multipliers along the root locus. [-]
+LOCUS_GAINS = np.logspace(-2, 2, 161)
 
 #: Pump speeds drawn, as fractions of the speed of the maker's curve. [-]
 CURVE_SPEED_FRACTIONS = (1.0, 0.9, 0.8, 0.7, 0.6)
@@ -61,6 +74,78 @@ class OperatingCurves:
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
+class LoopData:
+    """The closed loop of a design, as the loop views draw it.
+
+    Time responses are deviations from the operating point, in SI: the
+    measurement in the plant's output SI unit, the controller output in the
+    plant's input unit.
+
+    Attributes
+    ----------
+    time : numpy.ndarray
+        Time axis of both step responses. [s]
+    setpoint_step, load_step : float
+        Size of the setpoint step [measurement SI unit] and of the load step at
+        the plant input [controller output unit].
+    setpoint_y, setpoint_u : numpy.ndarray
+        Measurement and controller output after the setpoint step.
+    load_y, load_u : numpy.ndarray
+        Measurement and controller output after the load step.
+    omega : numpy.ndarray
+        Frequency axis. [rad/s]
+    open_loop, sensitivity, complementary : numpy.ndarray
+        L(jw), S(jw), T(jw) with the dead time exact. [-]
+    gain_margin : float
+        Gain margin as a ratio (inf if the phase never reaches -180 deg). [-]
+    phase_margin : float
+        Phase margin. [deg]
+    gain_crossover, phase_crossover : float
+        Frequencies where |L| = 1 and where the phase is -180 deg (NaN if none). [rad/s]
+    ms, mt : float
+        Peaks of |S| and |T|. [-]
+    rise_time, settling_time : float
+        10-90 % rise time and 2 % settling time of the setpoint response. [s]
+    overshoot : float
+        Overshoot of the setpoint response. [%]
+    poles, zeros : numpy.ndarray
+        Closed-loop poles and zeros (dead time as a Pade approximation). [1/s]
+    locus_gains : numpy.ndarray
+        Multipliers of the controller gain along the root locus. [-]
+    locus : numpy.ndarray
+        Closed-loop poles at each multiplier, shape (gains, poles). [1/s]
+    stable : bool
+        Whether every closed-loop pole lies in the left half plane.
+    """
+
+    time: np.ndarray
+    setpoint_step: float
+    load_step: float
+    setpoint_y: np.ndarray
+    setpoint_u: np.ndarray
+    load_y: np.ndarray
+    load_u: np.ndarray
+    omega: np.ndarray
+    open_loop: np.ndarray
+    sensitivity: np.ndarray
+    complementary: np.ndarray
+    gain_margin: float
+    phase_margin: float
+    gain_crossover: float
+    phase_crossover: float
+    ms: float
+    mt: float
+    rise_time: float
+    settling_time: float
+    overshoot: float
+    poles: np.ndarray
+    zeros: np.ndarray
+    locus_gains: np.ndarray
+    locus: np.ndarray
+    stable: bool
+
+
+@dataclasses.dataclass(frozen=True, eq=False)
 class BoardResult:
     """Everything the views show for one design.
 
@@ -74,6 +159,8 @@ class BoardResult:
         The plant linearised there (input: controller output, output: measured value).
     curves : OperatingCurves or None
         Pump and system curves; ``None`` for a machine that is not a pump.
+    loop : LoopData or None
+        The closed loop; ``None`` when the design has no controller.
     cautions : tuple of str
         Plain-words cautions from the operating point and the loop.
     """
@@ -82,6 +169,7 @@ class BoardResult:
     operating_point: Any
     plant: LinearModel
     curves: OperatingCurves | None
+    loop: LoopData | None = None
     cautions: tuple[str, ...] = ()
 
 
@@ -143,10 +231,104 @@ def compute_result(design: Design) -> BoardResult:
     """
     op = design.operating_point()
     plant = design.train.linearize(op)
+    loop = loop_data(design, op, plant) if design.controller is not None else None
+    cautions = list(op.cautions)
+    if loop is not None and not loop.stable:
+        cautions.append("the closed loop is unstable: lower the controller gain or slow the integral action")
     return BoardResult(
         design=design,
         operating_point=op,
         plant=plant,
         curves=operating_curves(design, op),
-        cautions=tuple(op.cautions),
+        loop=loop,
+        cautions=tuple(cautions),
+    )
+
+
+def _frequency_grid(plant: LinearModel, controller_tf: Any) -> np.ndarray:
+    corners = [abs(p) for p in np.concatenate([plant.poles, np.asarray(control.poles(controller_tf))]) if abs(p) > 1e-9]
+    if plant.delay > 0:
+        corners.append(1.0 / plant.delay)
+    lo = min(corners, default=1.0) / 100.0
+    hi = max(corners, default=1.0) * 10.0
+    return np.logspace(np.log10(lo), np.log10(hi), FREQUENCY_POINTS)
+
+
+def _response(sys: Any, t: np.ndarray) -> np.ndarray:
+    return np.asarray(control.step_response(sys, t).outputs, dtype=float).reshape(-1)
+
+
+def loop_data(design: Design, op: Any, plant: LinearModel) -> LoopData:
+    """Close the loop of ``design`` around ``plant`` and compute what the loop views show.
+
+    Parameters
+    ----------
+    design : Design
+        The design (its controller must have a python-control ``.tf`` in SI).
+    op : OperatingPoint
+        The operating point (sets the setpoint step size).
+    plant : LinearModel
+        The plant linearised at ``op``.
+
+    Returns
+    -------
+    LoopData
+
+    Notes
+    -----
+    Frequency responses keep the dead time exact (``LinearModel.frequency_response``);
+    margins are read from that sampled response by python-control's
+    ``stability_margins``. Time responses, poles and the root locus use a
+    Pade approximation of order :data:`PADE_ORDER` for the dead time.
+    """
+    c = design.controller.tf
+    g = plant.pade(PADE_ORDER)
+    omega = _frequency_grid(plant, c)
+    lw = np.asarray(c(1j * omega)).reshape(-1) * plant.frequency_response(omega)
+    s_w = 1.0 / (1.0 + lw)
+    t_w = lw / (1.0 + lw)
+    gm, pm, _sm, wpc, wgc, _wms = control.stability_margins(control.frd(lw, omega), returnall=False)
+    open_loop = c * g
+    closed = control.feedback(open_loop, 1)
+    poles = np.asarray(control.poles(closed))
+    zeros = np.asarray(control.zeros(closed))
+    slow = float(np.min(np.abs(poles.real))) if poles.size else 1.0
+    t_end = min(max(6.0 / max(slow, 1e-6), 10.0 * plant.delay, 1.0), 1e5)
+    t = np.linspace(0.0, t_end, TIME_POINTS)
+    r_step = SETPOINT_STEP * (op.flow if design.train.is_pump else op.machine_speed)
+    span = design.output_span or (0.0, 100.0)
+    d_step = LOAD_STEP * (span[1] - span[0])
+    sp_y = _response(closed, t)
+    sp_u = _response(control.feedback(c, g), t)
+    ld_y = _response(control.feedback(g, c), t)
+    ld_u = -_response(closed, t)
+    stable = bool(np.all(poles.real < 0))
+    info = control.step_info(sp_y, t, SettlingTimeThreshold=0.02) if stable else {}
+    locus = np.asarray(control.root_locus_map(open_loop, LOCUS_GAINS).loci)
+    return LoopData(
+        time=t,
+        setpoint_step=r_step,
+        load_step=d_step,
+        setpoint_y=r_step * sp_y,
+        setpoint_u=r_step * sp_u,
+        load_y=d_step * ld_y,
+        load_u=d_step * ld_u,
+        omega=omega,
+        open_loop=lw,
+        sensitivity=s_w,
+        complementary=t_w,
+        gain_margin=float(gm),
+        phase_margin=float(pm),
+        gain_crossover=float(wgc),
+        phase_crossover=float(wpc),
+        ms=float(np.max(np.abs(s_w))),
+        mt=float(np.max(np.abs(t_w))),
+        rise_time=float(info.get("RiseTime", math.nan)),
+        settling_time=float(info.get("SettlingTime", math.nan)),
+        overshoot=float(info.get("Overshoot", math.nan)),
+        poles=poles,
+        zeros=zeros,
+        locus_gains=LOCUS_GAINS,
+        locus=locus,
+        stable=stable,
     )

@@ -21,7 +21,23 @@ from ..design import Design
 from ..units import ParameterError
 from .compute import compute_result
 
-__all__ = ["Coalescer", "DesignModel"]
+__all__ = ["Coalescer", "DesignModel", "design_value"]
+
+
+def design_value(design: Design, key: str) -> Any:
+    """SI value of ``key`` in ``design``; controller settings are read from the controller itself.
+
+    Parameters
+    ----------
+    design : Design
+        The design.
+    key : str
+        Parameter key (``"motor.J"``, ``"controller.kp"``).
+    """
+    role, _, name = key.partition(".")
+    if role == "controller" and design.controller is not None and hasattr(design.controller, name):
+        return getattr(design.controller, name)
+    return design.value(key)
 
 
 class Coalescer:
@@ -157,9 +173,7 @@ class DesignModel(traitlets.HasTraits):
 
     def value(self, key: str) -> Any:
         """Current SI value of ``key``, pending changes included."""
-        if key in self._pending:
-            return self.current_design().value(key)
-        return self.design.value(key)
+        return design_value(self.current_design() if key in self._pending else self.design, key)
 
     def check(self, key: str, value: Any) -> float:
         """Check a value without applying it; returns it in SI.
@@ -169,7 +183,7 @@ class DesignModel(traitlets.HasTraits):
         ParameterError
             Wrong kind, unit or range; nothing is changed.
         """
-        return self.current_design().with_value(key, value).value(key)
+        return design_value(self.current_design().with_value(key, value), key)
 
     def set_value(self, key: str, value: Any) -> None:
         """Change one parameter; the recompute is coalesced with other changes.
@@ -193,7 +207,7 @@ class DesignModel(traitlets.HasTraits):
 
     def reset(self, key: str) -> None:
         """Put ``key`` back to its value in the design file."""
-        self.set_value(key, self.file_design.value(key))
+        self.set_value(key, design_value(self.file_design, key))
 
     def replace_design(self, design: Design) -> None:
         """Replace the whole design (e.g. after loading a file) and recompute now."""
