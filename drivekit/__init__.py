@@ -4,50 +4,92 @@ The core (this package) is plain computation with SI floats inside and units
 at the boundary; :mod:`drivekit.widgets` draws it in Jupyter.
 """
 
-from . import demo, units
+from . import demo, identify, slurry, surge, tuning, units
 from .design import Design, DesignInfo, Targets
 from .drives import VariableSpeedDrive
 from .drivetrain import DriveTrain
+from .evaluation import DesignResult, TargetCheck
 from .fluid import Fluid
 from .linear import FactoredForm, LinearModel, Mode, ModelComparison
+from .loop import Loop
 from .machines import Conveyor, Fan
+from .margins import LoadMetrics, Margins, StepMetrics, load_metrics, loop_margins, step_metrics
+from .models import FOPDT, SOPDT, IntegratingDeadTime, half_rule
 from .motors import DCMotor, InductionMotor
 from .operating import OperatingPoint, OperatingPointError
+from .pid import PID, PlantSettings
 from .piping import Pipe
 from .pumps import CentrifugalPump, PumpCurve
+from .responses import (
+    FrequencyResponse,
+    StepResponse,
+    frequency_response,
+    impulse_response,
+    load_response,
+    step_response,
+)
 from .sensors import FlowMeter, PressureSensor, SpeedSensor
 from .transmissions import Transmission
 from .units import Q_, ParameterError, ureg
+from .variants import LinearBatch, VariantSet, make_variants
 
 __version__ = "0.1.0"
 
 __all__ = [
+    "FOPDT",
+    "PID",
     "Q_",
+    "SOPDT",
     "CentrifugalPump",
     "Conveyor",
     "DCMotor",
     "Design",
     "DesignInfo",
+    "DesignResult",
     "DriveTrain",
     "FactoredForm",
     "Fan",
     "FlowMeter",
     "Fluid",
+    "FrequencyResponse",
     "InductionMotor",
+    "IntegratingDeadTime",
+    "LinearBatch",
     "LinearModel",
+    "LoadMetrics",
+    "Loop",
+    "Margins",
     "Mode",
     "ModelComparison",
     "OperatingPoint",
     "OperatingPointError",
     "ParameterError",
     "Pipe",
+    "PlantSettings",
     "PressureSensor",
     "PumpCurve",
     "SpeedSensor",
+    "StepMetrics",
+    "StepResponse",
+    "TargetCheck",
     "Targets",
     "Transmission",
     "VariableSpeedDrive",
+    "VariantSet",
     "demo",
+    "frequency_response",
+    "half_rule",
+    "identify",
+    "impulse_response",
+    "load_metrics",
+    "load_response",
+    "loop_margins",
+    "make_variants",
+    "slurry",
+    "step_metrics",
+    "step_response",
+    "surge",
+    "tuning",
     "units",
     "ureg",
 ]
