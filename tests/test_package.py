@@ -78,3 +78,45 @@ def test_parameter_specs_cover_the_examples():
     motor = dk.DCMotor(R=1, L=0.01, k=0.5, J=0.1)
     names = [n for n, _ in parameter_specs(motor)]
     assert names[:5] == ["R", "L", "k", "J", "b"]
+
+
+# The stable public names of the design contract (DESIGN.md, "Contract").
+CONTRACT = [
+    "DCMotor",
+    "InductionMotor",
+    "Transmission",
+    "PumpCurve",
+    "CentrifugalPump",
+    "Pipe",
+    "Fluid",
+    "FlowMeter",
+    "DriveTrain",
+    "PID",
+    "loop_margins",
+    "step_metrics",
+    "FOPDT",
+    "tuning.simc",
+    "tuning.lambda_tuning",
+    "tuning.ziegler_nichols",
+    "identify.fopdt",
+]
+
+
+@pytest.mark.parametrize("name", CONTRACT)
+def test_contract_names_are_public(name):
+    head = name.split(".")[0]
+    assert head in dk.__all__
+    obj = dk
+    for part in name.split("."):
+        obj = getattr(obj, part)
+    assert callable(obj)
+
+
+def test_contract_methods_exist():
+    train = dk.demo.raw_water_pump()
+    op = train.operating_point(flow="380 m**3/h")
+    lin = train.linearize(op)
+    for attr in ("tf", "ss", "poles", "dc_gain"):
+        assert getattr(lin, attr) is not None
+    assert lin.factored().text
+    assert train.series_approximation(op).order == lin.order
