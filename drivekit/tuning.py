@@ -16,8 +16,9 @@ maximum sensitivity Ms stays within a target.
 
 from __future__ import annotations
 
+import dataclasses
 import math
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -30,8 +31,11 @@ from .units import ParameterError
 
 __all__ = [
     "RULES",
+    "RuleComparison",
+    "RuleResult",
     "amigo",
     "cohen_coon",
+    "compare_rules",
     "lambda_tuning",
     "robust_pi",
     "simc",
@@ -73,6 +77,8 @@ def _first_order(model: Any) -> FOPDT | IntegratingDeadTime:
 
 def _second_order(model: Any) -> SOPDT | IntegratingDeadTime | FOPDT:
     if isinstance(model, LinearModel):
+        if sum(1 for p in model.poles if abs(p) > 0) < 2:
+            return half_rule(model, order=1)  # one lag: first order is all there is
         return half_rule(model, order=2)
     if isinstance(model, (FOPDT, SOPDT, IntegratingDeadTime)):
         return model
@@ -642,3 +648,211 @@ def robust_pi(plant: Model, max_ms: float = 1.4, *, min_phase_margin: float | No
     )
     kp_opt, ki_opt = (float(res.x), -float(res.fun)) if -res.fun >= kis[best] else (float(kps[best]), float(kis[best]))
     return _ideal(sign * kp_opt, kp_opt / ki_opt)
+
+
+# -- comparison on the full model ------------------------------------------------------------------
+@dataclasses.dataclass(frozen=True)
+class RuleResult:
+    """One rule's controller and how it performs on the full plant model.
+
+    Attributes
+    ----------
+    rule : str
+        Function name of the rule.
+    controller : str
+        ``"PI"`` or ``"PID"`` as asked.
+    pid : PID or None
+        The settings (None where the rule does not apply; see ``note``).
+    gain : float
+        Controller gain in %/% (nan without spans). [%/%]
+    gain_margin : float
+        [-]
+    phase_margin : float
+        [deg]
+    ms : float
+        Peak sensitivity. [-]
+    rise_time : float
+        10-90 % setpoint-step rise time. [s]
+    settling_time : float
+        2 % settling time. [s]
+    overshoot : float
+        Setpoint-step overshoot. [%]
+    load_iae : float
+        Integrated absolute error after a unit load step at the plant input.
+        [output SI unit * s]
+    stable : bool
+        Closed-loop stability.
+    note : str
+        Why a rule gave no controller, else "".
+    """
+
+    rule: str
+    controller: str
+    pid: PID | None
+    gain: float
+    gain_margin: float
+    phase_margin: float
+    ms: float
+    rise_time: float
+    settling_time: float
+    overshoot: float
+    load_iae: float
+    stable: bool
+    note: str
+
+
+@dataclasses.dataclass(frozen=True)
+class RuleComparison:
+    """Every rule's settings and their margins and responses on the full model.
+
+    Attributes
+    ----------
+    results : tuple of RuleResult
+        One per rule, in the order asked.
+    """
+
+    results: tuple[RuleResult, ...]
+
+    def table(self) -> list[tuple[str, ...]]:
+        """Rows with a header row first: rule, kp, ti [s], td [s], gain [%/%], GM, PM [deg], Ms, ..."""
+        rows: list[tuple[str, ...]] = [
+            (
+                "rule",
+                "kp",
+                "ti [s]",
+                "td [s]",
+                "gain [%/%]",
+                "GM [-]",
+                "PM [deg]",
+                "Ms [-]",
+                "rise [s]",
+                "settling [s]",
+                "overshoot [%]",
+                "load IAE",
+                "note",
+            ),
+        ]
+        for r in self.results:
+            if r.pid is None:
+                rows.append((f"{r.rule} {r.controller}", *([""] * 11), r.note))
+                continue
+            rows.append(
+                (
+                    f"{r.rule} {r.controller}",
+                    f"{r.pid.kp:.4g}",
+                    f"{r.pid.ti:.4g}",
+                    f"{r.pid.td:.3g}",
+                    f"{r.gain:.3g}",
+                    f"{r.gain_margin:.3g}",
+                    f"{r.phase_margin:.3g}",
+                    f"{r.ms:.3g}",
+                    f"{r.rise_time:.3g}",
+                    f"{r.settling_time:.3g}",
+                    f"{r.overshoot:.3g}",
+                    f"{r.load_iae:.3g}",
+                    r.note,
+                )
+            )
+        return rows
+
+    def to_frame(self) -> Any:
+        """A pandas DataFrame, one row per rule, SI units."""
+        import pandas as pd
+
+        recs = []
+        for r in self.results:
+            rec = {f.name: getattr(r, f.name) for f in dataclasses.fields(r) if f.name != "pid"}
+            rec.update(
+                kp=r.pid.kp if r.pid else math.nan,
+                ti=r.pid.ti if r.pid else math.nan,
+                td=r.pid.td if r.pid else math.nan,
+            )
+            recs.append(rec)
+        return pd.DataFrame.from_records(recs)
+
+
+def compare_rules(
+    plant: LinearModel,
+    rules: Sequence[Callable[..., PID]] = RULES,
+    *,
+    controller: str = "PI",
+    measurement_span: tuple[Any, Any] | None = None,
+    output_span: tuple[Any, Any] = (0.0, 100.0),
+    max_ms: float | None = 1.4,
+) -> RuleComparison:
+    """Tune the plant by every rule and evaluate each controller on the full model.
+
+    Parameters
+    ----------
+    plant : LinearModel
+        Full plant model with its dead time; rules that need FOPDT/SOPDT get
+        its half-rule reduction, the evaluation uses the full model.
+    rules : sequence of callables
+        Rules of the shape ``rule(model, controller=...) -> PID``; default :data:`RULES`.
+    controller : str
+        ``"PI"`` or ``"PID"``.
+    measurement_span, output_span : tuple, optional
+        Spans for the %/% gain (see :meth:`PID.settings`).
+    max_ms : float or None
+        Also add :func:`robust_pi` with this Ms target (PI only); None to leave it out. [-]
+
+    Returns
+    -------
+    RuleComparison
+
+    Notes
+    -----
+    Margins from :func:`drivekit.margins.loop_margins`; setpoint-step
+    metrics from :func:`drivekit.margins.step_metrics` of the loop with the
+    controller on the error (setpoint weights not applied); load IAE from a
+    unit step at the plant input (:func:`drivekit.margins.load_metrics`).
+    A rule that does not apply (e.g. SIMC PID on a first-order plant) gives
+    a row with its reason in ``note``.
+    """
+    from .loop import Loop
+    from .margins import load_metrics, loop_margins, step_metrics
+    from .responses import load_response, step_response
+
+    if not isinstance(plant, LinearModel):
+        raise ParameterError(f"`plant`: got {type(plant).__name__}, expected a drivekit LinearModel")
+    jobs: list[tuple[str, Callable[[], PID]]] = [
+        (rule.__name__, (lambda rule=rule: rule(plant, controller=controller))) for rule in rules
+    ]
+    if max_ms is not None and controller == "PI":
+        jobs.append((f"robust_pi (Ms {max_ms:g})", lambda: robust_pi(plant, max_ms)))
+    results = []
+    nan = math.nan
+    for name, make in jobs:
+        try:
+            pid = make()
+        except ParameterError as exc:
+            results.append(RuleResult(name, controller, None, nan, nan, nan, nan, nan, nan, nan, nan, False, str(exc)))
+            continue
+        loop = Loop(plant, pid)
+        m = loop_margins(loop)
+        gain = pid.settings(measurement_span, output_span).gain if measurement_span is not None else nan
+        if m.stable:
+            sm = step_metrics(step_response(loop))
+            lm = load_metrics(load_response(loop))
+            rise, settle, over, iae, note = sm.rise_time, sm.settling_time, sm.overshoot, lm.iae, ""
+        else:
+            rise = settle = over = iae = nan
+            note = "closed loop unstable on the full model"
+        results.append(
+            RuleResult(
+                name,
+                controller,
+                pid,
+                gain,
+                m.gain_margin,
+                m.phase_margin,
+                m.ms,
+                rise,
+                settle,
+                over,
+                iae,
+                m.stable,
+                note,
+            )
+        )
+    return RuleComparison(tuple(results))

@@ -290,3 +290,48 @@ def test_robust_pi_with_phase_margin_target():
     # the phase-margin constraint is the active one here: met to within the grid's interpolation error
     assert pm == pytest.approx(60.0, abs=0.05)
     assert c.kp / c.ti < free.kp / free.ti
+
+
+# -- comparison on the full model ------------------------------------------------------------------
+def test_compare_rules_on_the_flow_loop(flow_plant):
+    from drivekit.loop import Loop
+    from drivekit.margins import loop_margins
+    from drivekit.tuning import compare_rules
+
+    comp = compare_rules(flow_plant, controller="PI", measurement_span=("0 m**3/h", "500 m**3/h"))
+    assert len(comp.results) == len(RULES) + 1
+    by_name = {r.rule: r for r in comp.results}
+    # each row holds exactly what the rule gives when called directly
+    for rule in RULES:
+        row = by_name[rule.__name__]
+        direct = rule(flow_plant, controller="PI")
+        assert (row.pid.kp, row.pid.ti) == (direct.kp, direct.ti)
+        # cross-path: the row's Ms is loop_margins on the full model
+        assert row.ms == pytest.approx(loop_margins(Loop(flow_plant, direct)).ms, rel=1e-12)
+    robust = by_name["robust_pi (Ms 1.4)"]
+    assert robust.ms == pytest.approx(1.4, rel=2e-3)
+    # Source: Skogestad (2003) §4 (from memory): SIMC with tau_c = theta gives Ms about 1.6-1.7
+    assert 1.5 < by_name["simc"].ms < 1.8
+    # Source: Åström & Hägglund, Advanced PID Control, ISA 2006, §4 (from memory): after a unit load step
+    # the integrated error is IE = 1/ki; IAE = IE for a response without overshoot (lambda tuning here).
+    # Tolerance 2 %: the load response is computed over a finite window.
+    lam = by_name["lambda_tuning"]
+    assert lam.overshoot == pytest.approx(0.0, abs=0.1)
+    assert lam.load_iae == pytest.approx(lam.pid.ti / lam.pid.kp, rel=0.02)
+    assert lam.gain == pytest.approx(lam.pid.settings(("0 m**3/h", "500 m**3/h")).gain)
+    header, *rows = comp.table()
+    assert header[0] == "rule"
+    assert len(rows) == len(comp.results)
+    assert comp.to_frame().shape[0] == len(comp.results)
+
+
+def test_compare_rules_reports_rules_that_do_not_apply():
+    from drivekit.tuning import compare_rules
+
+    plant = FOPDT(gain=1.0, time_constant=5.0, dead_time=1.0).to_linear()
+    comp = compare_rules(plant, rules=(simc, amigo), controller="PID")
+    simc_row, amigo_row = comp.results
+    assert simc_row.pid is None
+    assert "expected 'PI'" in simc_row.note
+    assert amigo_row.pid is not None
+    assert amigo_row.stable
