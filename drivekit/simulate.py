@@ -259,6 +259,12 @@ class DiscretePID:
         self.derivative = 0.0
         self.integral = output - self.kp * (self.b * setpoint - measurement)
 
+    def hold(self, output: float) -> float:
+        """Manual mode: ``output`` [output unit] through the output limits and rate limit."""
+        u = min(max(output, self.lo), self.hi)
+        self.last_u = min(max(u, self.last_u - self.step), self.last_u + self.step)
+        return self.last_u
+
     def update(self, setpoint: float, measurement: float) -> float:
         """One scan: the new output [output unit] for ``setpoint`` and ``measurement`` [SI]."""
         r, y = setpoint, measurement
@@ -288,8 +294,21 @@ def _time(value: Any, name: str) -> float:
 
 
 @dataclasses.dataclass(frozen=True)
-class DensityChange:
-    """The pumped liquid's specific gravity (and optionally viscosity) changes at ``time``.
+class _Disturbance:
+    time: Any
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "time", _time(self.time, "time"))
+
+    def _pipes(self, train: DriveTrain) -> tuple[Any, ...]:
+        if not train.is_pump:
+            raise ParameterError(f"`{type(self).__name__}`: needs a pump and its pipe line in the drive train")
+        return train.pipes
+
+
+@dataclasses.dataclass(frozen=True)
+class DensityChange(_Disturbance):
+    """The pumped liquid changes (e.g. a denser slurry arrives).
 
     Parameters
     ----------
@@ -301,14 +320,12 @@ class DensityChange:
         New dynamic viscosity; unchanged when None. [Pa*s]
     """
 
-    time: Any
     sg: float
     viscosity: Any = None
 
     def apply(self, train: DriveTrain) -> DriveTrain:
         """The drive train after the change."""
-        if not train.is_pump:
-            raise ParameterError("`DensityChange`: needs a pump in the drive train")
+        self._pipes(train)
         changes: dict[str, Any] = {"sg": self.sg}
         if self.viscosity is not None:
             changes["viscosity"] = self.viscosity
@@ -316,8 +333,8 @@ class DensityChange:
 
 
 @dataclasses.dataclass(frozen=True)
-class StaticHeadChange:
-    """The total static head of the line becomes ``static_head`` at ``time`` (taken up by the last pipe).
+class StaticHeadChange(_Disturbance):
+    """The line's total static head changes (a tank level moves); the last pipe takes the change.
 
     Parameters
     ----------
@@ -327,66 +344,59 @@ class StaticHeadChange:
         New total static head. [m]
     """
 
-    time: Any
     static_head: Any
 
     def apply(self, train: DriveTrain) -> DriveTrain:
         """The drive train after the change."""
-        if not train.is_pump:
-            raise ParameterError("`StaticHeadChange`: needs a pump and pipes in the drive train")
+        last = self._pipes(train)[-1]
         new = float(to_si(self.static_head, "static_head", ParamSpec("m", "static head")))
-        last = train.pipes[-1]
-        pipe = dataclasses.replace(last, static_head=last.static_head + new - train.static_head)
-        return _rebuild(train, {id(last): pipe})
+        return _rebuild(
+            train, {id(last): dataclasses.replace(last, static_head=last.static_head + new - train.static_head)}
+        )
 
 
 @dataclasses.dataclass(frozen=True)
-class ValveClosing:
-    """A valve throttles: ``minor_loss`` is added to the loss coefficient K of a pipe at ``time``.
+class ValveClosing(_Disturbance):
+    """A valve throttles: an extra loss coefficient K on one pipe run.
 
     Parameters
     ----------
     time : float, Quantity or str
         When. [s]
     minor_loss : float
-        Extra loss coefficient K, on that pipe's velocity. [-]
+        Extra K, on that pipe's velocity. [-]
     pipe : int
-        Which pipe run (index, default the last). [-]
+        Which pipe run, by index; default the last. [-]
     """
 
-    time: Any
     minor_loss: float
     pipe: int = -1
 
     def apply(self, train: DriveTrain) -> DriveTrain:
         """The drive train after the change."""
-        if not train.is_pump:
-            raise ParameterError("`ValveClosing`: needs a pump and pipes in the drive train")
-        old = train.pipes[self.pipe]
+        old = self._pipes(train)[self.pipe]
         return _rebuild(train, {id(old): dataclasses.replace(old, minor_loss=old.minor_loss + self.minor_loss)})
 
 
 @dataclasses.dataclass(frozen=True)
-class LoadTorqueChange:
-    """The conveyor's load torque at the pulley becomes ``load_torque`` at ``time``.
+class LoadTorqueChange(_Disturbance):
+    """The conveyor's load changes (more material on the belt).
 
     Parameters
     ----------
     time : float, Quantity or str
         When. [s]
     load_torque : float, Quantity or str
-        New load torque. [N*m]
+        New load torque at the pulley. [N*m]
     """
 
-    time: Any
     load_torque: Any
 
     def apply(self, train: DriveTrain) -> DriveTrain:
         """The drive train after the change."""
         if not isinstance(train.machine, Conveyor):
             raise ParameterError(f"`LoadTorqueChange`: needs a Conveyor, the train drives a {train.machine.name}")
-        machine = dataclasses.replace(train.machine, load_torque=self.load_torque)
-        return _rebuild(train, {id(train.machine): machine})
+        return _rebuild(train, {id(train.machine): dataclasses.replace(train.machine, load_torque=self.load_torque)})
 
 
 def _rebuild(train: DriveTrain, replace: dict[int, Any] | None = None, fluid: Any = None) -> DriveTrain:
@@ -434,11 +444,10 @@ class Scenario:
         for name in ("setpoint_steps", "output_steps"):
             steps = tuple((_time(t, f"{name} time"), v) for t, v in getattr(self, name))
             object.__setattr__(self, name, tuple(sorted(steps, key=lambda s: s[0])))
-        kinds = (DensityChange, StaticHeadChange, ValveClosing, LoadTorqueChange)
         for d in self.disturbances:
-            if not isinstance(d, kinds):
-                raise ParameterError(f"`disturbances`: got {d!r}, expected one of {[k.__name__ for k in kinds]}")
-        object.__setattr__(self, "disturbances", tuple(sorted(self.disturbances, key=lambda d: _time(d.time, "time"))))
+            if not isinstance(d, _Disturbance):
+                raise ParameterError(f"`disturbances`: got {d!r}, expected DensityChange, StaticHeadChange, ...")
+        object.__setattr__(self, "disturbances", tuple(sorted(self.disturbances, key=lambda d: d.time)))
 
 
 # -- the plant on plain floats ------------------------------------------------------------
@@ -900,46 +909,39 @@ def simulate(
     for t, v in scenario.output_steps:
         events.setdefault(_scan_of(t, h), []).append(("output", float(v)))
     for d in scenario.disturbances:
-        events.setdefault(_scan_of(_time(d.time, "time"), h), []).append(("disturbance", d))
+        events.setdefault(_scan_of(d.time, h), []).append(("disturbance", d))
     delay = train.dead_time / h
     lag, frac = int(delay), delay - int(delay)
     substeps = _substeps(train, x, u, h)
     most_substeps = substeps
     ramp_step = options.setpoint_ramp * h if options.setpoint_ramp is not None else math.inf
     readings: list[float] = []
-    rows_x, rows_u, rows_r, rows_y, rows_seg = [], [], [], [], []
+    rows: list[tuple[list[float], float, float, float, int]] = []
     segments = [plant]
-    r = r_target
-    manual = u
+    r, manual, update = r_target, u, pid.update
     for k in range(n_scans + 1):
-        for kind, value in events.get(k, ()):
-            if kind == "setpoint":
-                r_target = value
-            elif kind == "output":
-                manual = value
-            else:
-                plant = _FastPlant(value.apply(plant.train), options.torque_limit)
-                plant.check(np.asarray(x), u)
-                segments.append(plant)
-                substeps = _substeps(plant.train, x, u, h)
-                most_substeps = max(most_substeps, substeps)
+        if k in events:
+            for kind, value in events[k]:
+                if kind == "setpoint":
+                    r_target = value
+                elif kind == "output":
+                    manual = value
+                else:
+                    plant = _FastPlant(value.apply(plant.train), options.torque_limit)
+                    plant.check(np.asarray(x), u)
+                    segments.append(plant)
+                    substeps = _substeps(plant.train, x, u, h)
+                    most_substeps = max(most_substeps, substeps)
         readings.append(plant.reading(x))
-        j = k - lag
-        y = readings[max(j, 0)] if frac == 0.0 else (1 - frac) * readings[max(j, 0)] + frac * readings[max(j - 1, 0)]
-        r += min(max(r_target - r, -ramp_step), ramp_step)
-        if settings is None:
-            step = pid.step
-            u = min(max(min(max(manual, pid.lo), pid.hi), u - step), u + step)
-        else:
-            u = pid.update(r, y)
-        rows_x.append(x)
-        rows_u.append(u)
-        rows_r.append(r)
-        rows_y.append(y)
-        rows_seg.append(len(segments) - 1)
+        j = k - lag if k > lag else 0
+        y = readings[j] if frac == 0.0 else (1 - frac) * readings[j] + frac * readings[j - 1 if j else 0]
+        if r != r_target:
+            r += min(max(r_target - r, -ramp_step), ramp_step)
+        u = update(r, y) if settings is not None else pid.hold(manual)
+        rows.append((x, u, r, y, len(segments) - 1))
         if k < n_scans:
             x = _advance(plant, x, plant.demand(u), h, substeps)
-    return _result(segments, scenario, h, most_substeps, rows_x, rows_u, rows_r, rows_y, rows_seg, pid)
+    return _result(segments, scenario, h, most_substeps, rows, pid)
 
 
 def _result(
@@ -947,17 +949,14 @@ def _result(
     scenario: Scenario,
     h: float,
     substeps: int,
-    xs: list[list[float]],
-    us: list[float],
-    rs: list[float],
-    ys: list[float],
-    segs: list[int],
+    rows: list[tuple[list[float], float, float, float, int]],
     pid: DiscretePID,
 ) -> SimulationResult:
     """Assemble the table (stage methods on the state history) and the summary."""
     import pandas as pd
 
     train = segments[0].train
+    xs, us, rs, ys, segs = zip(*rows, strict=True)
     x = np.array(xs)
     u, r, y, seg = np.array(us), np.array(rs), np.array(ys), np.array(segs)
     supply, torque = np.empty(len(u)), np.empty(len(u))

@@ -1,6 +1,7 @@
 """Nonlinear loop simulation: checked against the linear model, energy conservation, the operating-point
 solver and scipy's discretisation, on the invented demo plants."""
 
+import dataclasses
 import math
 
 import numpy as np
@@ -8,6 +9,7 @@ import pytest
 import scipy.signal as sig
 from scipy.integrate import trapezoid
 
+import drivekit as dk
 from drivekit import ParameterError, demo
 from drivekit.constants import STANDARD_GRAVITY
 from drivekit.pid import PID
@@ -30,10 +32,21 @@ FLOW_PI = PID(kp=150.0, ti=3.0, sample_time=0.01)  # %/(m**3/s), s: a moderate f
 SPEED_PI = PID(kp=5.0, ti=1.0, sample_time=0.01)  # Hz/(rad/s), s: a speed-loop PI for CV-3
 
 
-@pytest.mark.parametrize("plant", [demo.raw_water_pump, demo.slurry_pump, demo.quarry_conveyor])
+def dc_fan():
+    """An invented DC-motor fan drive (nameplate estimate) with a 75 A current limit."""
+    motor = dk.DCMotor.from_nameplate(voltage=440, current=50, speed="1500 rpm", power=20e3, J=0.5)
+    return dk.DriveTrain(
+        dataclasses.replace(motor, max_current=75.0),
+        dk.Transmission(ratio=5.0, efficiency=0.95),
+        dk.Fan(rated_speed="300 rpm", rated_power="15 kW", J=3.0),
+        dk.SpeedSensor(time_constant=0.02),
+    )
+
+
+@pytest.mark.parametrize("plant", [demo.raw_water_pump, demo.slurry_pump, demo.quarry_conveyor, dc_fan])
 def test_fast_plant_equations_equal_the_model(plant):
     train = plant()
-    op = train.operating_point(u=0.9 * train.drive.reference_range()[1])
+    op = train.operating_point(u=0.9 * train.drive.reference_range()[1] if train.drive else 400.0)
     fast = _FastPlant(train, torque_limit=False)
     rng = np.random.default_rng(3)
     for _ in range(20):
@@ -190,6 +203,19 @@ def test_conveyor_load_change_and_torque_limit(conveyor_train):
     assert run.peak_torque <= limit * (1 + 1e-9)
     assert f["motor torque [N*m]"].iloc[-1] == pytest.approx(limit, rel=1e-6)
     assert f["machine speed [rpm]"].iloc[-1] < 60.0  # the belt cannot be held at speed
+
+
+def test_dc_current_limit_holds_during_a_large_step():
+    run = simulate(
+        dc_fan(),
+        PID(kp=20.0, ti=1.0, sample_time=0.01),
+        Scenario(duration=20.0, setpoint="250 rpm", setpoint_steps=((1.0, "300 rpm"),)),
+    )
+    f = run.frame
+    assert f["controller output [V]"].max() == pytest.approx(440.0)  # the output saturates at max_voltage
+    # the drive holds the armature voltage at back-emf + R i_max: the current rises to the limit, not past it
+    assert 74.0 < f["motor current [A]"].max() <= 75.0 * (1 + 1e-9)
+    assert f["machine speed [rpm]"].iloc[-1] == pytest.approx(300.0, rel=1e-5)
 
 
 @pytest.mark.parametrize(
