@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import io
 import math
+import re
 from typing import Any
 
 import numpy as np
@@ -30,6 +31,7 @@ def svg_text(fig: Any, salt: str) -> str:
     with matplotlib.rc_context({"svg.hashsalt": salt, "svg.fonttype": "none"}):
         fig.savefig(buf, format="svg", metadata={"Date": None}, bbox_inches="tight")
     text = buf.getvalue()
+    text = re.sub(r"\s*<metadata>.*?</metadata>", "", text, flags=re.DOTALL)  # creator and licence block
     return text[text.index("<svg") :]
 
 
