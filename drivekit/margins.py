@@ -262,6 +262,12 @@ def _closed_loop_unstable(
     return _nyquist_unstable(np.asarray(model.poles, complex), w, lw, d)
 
 
+def _sign_changes(x: np.ndarray) -> np.ndarray:
+    """Indices i where x changes sign between i and i+1, or is exactly 0 at i (each crossing once)."""
+    s = np.sign(x)
+    return np.nonzero((s[:-1] * s[1:] < 0) | (s[:-1] == 0))[0]
+
+
 def _refine(fun: Any, a: float, b: float) -> float:
     return float(scipy.optimize.brentq(fun, a, b, xtol=1e-15 * b, rtol=4 * np.finfo(float).eps, maxiter=200))
 
@@ -324,7 +330,7 @@ def loop_margins(L: Any, delay: float = 0.0) -> Margins:
     crossings: list[Crossing] = []
     mag = np.abs(lw)
     logm = np.log(np.maximum(mag, 1e-300))
-    for i in np.nonzero(np.sign(logm[:-1]) * np.sign(logm[1:]) < 0)[0]:
+    for i in _sign_changes(logm):
         wc = _refine(lambda x: math.log(abs(resp(x))), w[i], w[i + 1])
         val = resp(wc)
         ph = math.degrees(math.atan2(val.imag, val.real))
@@ -337,9 +343,9 @@ def loop_margins(L: Any, delay: float = 0.0) -> Margins:
     if theta > 0:  # beyond the densely sampled band |L| < 0.01: gain margins above 40 dB are not listed
         big = np.nonzero(mag >= 0.01)[0]
         im = im[: (big[-1] + 2 if len(big) else 1)]
-    for i in np.nonzero(
-        (np.sign(im[:-1]) * np.sign(im[1:]) < 0) & ((lw.real[: len(im) - 1] < 0) | (lw.real[1 : len(im)] < 0))
-    )[0]:
+    for i in _sign_changes(im):
+        if lw.real[i] >= 0 and lw.real[i + 1] >= 0:
+            continue
         w180 = _refine(lambda x: resp(x).imag / max(abs(resp(x)), 1e-300), w[i], w[i + 1])
         val = resp(w180)
         if val.real >= 0:
