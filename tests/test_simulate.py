@@ -65,23 +65,24 @@ def test_fast_plant_equations_equal_the_model(plant):
         assert fast.curve_error < 1e-4
 
 
-def test_small_open_loop_step_matches_the_linear_model(pump_train):
+@pytest.mark.parametrize("h", [0.01, 0.03])  # 0.2 s dead time: 20 scans, and 6.67 scans (interpolated)
+def test_small_open_loop_step_matches_the_linear_model(pump_train, h):
     op = pump_train.operating_point(flow=demo.RAW_WATER_FLOW_TARGET)
     lin = pump_train.linearize(op)
-    du, h = 0.2, 0.01  # % of speed reference: small enough that the drive's ramp does not act
-    scenario = Scenario(duration=30.0, setpoint=demo.RAW_WATER_FLOW_TARGET, output_steps=((1.0, op.u_si + du),))
+    du = 0.2  # % of speed reference: small enough that the drive's ramp does not act
+    scenario = Scenario(duration=30.0, setpoint=demo.RAW_WATER_FLOW_TARGET, output_steps=((0.99, op.u_si + du),))
     run = simulate(pump_train, None, scenario, scan_time=h)
     t = run.frame["time [s]"].to_numpy()
     y = run.frame["measured flow [m3/h]"].to_numpy() / 3600.0 - op.flow
-    # Source: scipy.signal.lsim on the linearised model, input step at 1 s, output shifted by the dead time
-    _, y_lin, _ = sig.lsim((lin.A, lin.B, lin.C, lin.D), np.where(t >= 1.0 - 1e-9, du, 0.0), t)
-    shift = round(lin.delay / h)
-    y_lin = np.concatenate([np.zeros(shift), y_lin[:-shift]])
-    # 0.5 % of the response: the second-order (curvature) terms of a 0.2 % input step plus the
-    # integration error; measured 0.09 %
+    # Source: scipy.signal.lsim on the linearised model (fine grid, step at 0.99 s), read at t - dead time
+    fine = np.arange(0.0, 30.0 + 1e-9, 1e-3)
+    _, y_fine, _ = sig.lsim((lin.A, lin.B, lin.C, lin.D), np.where(fine >= 0.99 - 1e-9, du, 0.0), fine)
+    y_lin = np.interp(t - lin.delay, fine, y_fine, left=0.0)
+    # 0.5 % of the response: the second-order (curvature) terms of a 0.2 % input step, the integration
+    # error and, at 30 ms, the linear interpolation of the dead-time buffer; measured 0.09 % at both scans
     assert np.max(np.abs(y - y_lin)) < 5e-3 * abs(y_lin[-1])
-    # nothing reaches the controller before the step plus the dead time (index 120 = 1.2 s)
-    assert np.max(np.abs(y[:120])) < 1e-6 * abs(y_lin[-1])
+    # nothing reaches the controller before the step plus the dead time
+    assert np.max(np.abs(y[t < 0.99 + lin.delay - 1e-9])) < 1e-6 * abs(y_lin[-1])
 
 
 def test_energy_is_conserved_over_a_transient(pump_train):
@@ -230,6 +231,16 @@ def test_large_setpoint_steps_stay_finite(plant, start, steps):
     run = simulate(plant(), pi, Scenario(duration=100.0, setpoint=start, setpoint_steps=steps))
     assert np.all(np.isfinite(run.frame.to_numpy()))
     assert run.limited_time > 10.0
+
+
+def test_deadband_holds_the_integral(pump_train):
+    scenario = Scenario(duration=120.0, setpoint="380 m**3/h", disturbances=(ValveClosing(5.0, 15.0),))
+    band = 4.0 / 3600.0
+    with_band = simulate(pump_train, FLOW_PI, scenario, options=LoopOptions(deadband=band))
+    without = simulate(pump_train, FLOW_PI, scenario)
+    assert abs(without.final_error) < 1e-7
+    # the integral stops inside the band, so an offset within the band remains
+    assert 0.2 * band < abs(with_band.final_error) <= band
 
 
 def test_discrete_pid_matches_scipy_discretisation():
