@@ -68,8 +68,8 @@ class Evaluation:
         The series shortcut at the same point.
     settings : PlantSettings or None
         Controller settings in plant units (needs a controller and both spans).
-    margins : object or None
-        Loop margins (from :func:`drivekit.margins.loop_margins`, where present).
+    margins : Margins or None
+        Loop margins (from :meth:`Design.evaluate`), with a controller.
     """
 
     design: Design
@@ -134,33 +134,27 @@ def _settings_results(settings: Any) -> list[Result]:
     return rows
 
 
-def _loop_margins(model: Any, controller: Any) -> Any:
-    """Margins of the loop from :mod:`drivekit.margins`; None where that module is not present."""
-    try:
-        from ..loop import Loop
-        from ..margins import loop_margins
-    except ImportError:
-        return None
-    loop = Loop(model, controller)
-    return loop_margins(loop.open_loop)
-
-
-def _margin_results(margins: Any, design: Design) -> list[Result]:
+def _loop_results(result: Any) -> list[Result]:
+    """Margins, step metrics and target checks of :meth:`Design.evaluate`'s result."""
+    m = result.margins
     rows = [
-        Result("loop", "phase margin", float(margins.phase_margin), "deg"),
-        Result("loop", "gain margin", float(margins.gain_margin), ""),
-        Result("loop", "gain crossover", float(margins.gain_crossover), "rad/s"),
-        Result("loop", "delay margin", float(margins.delay_margin), "s"),
-        Result("loop", "peak sensitivity Ms", float(margins.ms), ""),
+        Result("loop", "phase margin", float(m.phase_margin), "deg"),
+        Result("loop", "gain margin", float(m.gain_margin), ""),
+        Result("loop", "gain crossover", float(m.gain_crossover), "rad/s"),
+        Result("loop", "delay margin", float(m.delay_margin), "s"),
+        Result("loop", "peak sensitivity Ms", float(m.ms), ""),
+        Result("loop", "verdict", str(m.verdict), ""),
     ]
-    t = design.targets
-    checks = (
-        ("phase margin", margins.phase_margin >= t.phase_margin, f">= {t.phase_margin:g} deg"),
-        ("gain margin", margins.gain_margin >= t.gain_margin, f">= {t.gain_margin:g}"),
-        ("peak sensitivity Ms", margins.ms <= t.max_ms, f"<= {t.max_ms:g}"),
-    )
-    for name, ok, wanted in checks:
-        rows.append(Result("targets", f"{name} {wanted}", "met" if ok else "missed", ""))
+    if result.step is not None:
+        st = result.step
+        rows += [
+            Result("setpoint step", "rise time 10-90 %", float(st.rise_time), "s"),
+            Result("setpoint step", "settling time 2 %", float(st.settling_time), "s"),
+            Result("setpoint step", "overshoot", float(st.overshoot), "%"),
+        ]
+    for c in result.checks:
+        unit = "" if c.unit == "-" else f" {c.unit}"
+        rows.append(Result("targets", f"{c.name} {c.kind} {c.limit:.4g}{unit}", "met" if c.met else "missed", ""))
     return rows
 
 
@@ -208,10 +202,7 @@ def evaluate(design: Design) -> Evaluation:
             results += _settings_results(settings)
         else:
             problems.append("no measurement span: controller settings in %/% are left out")
-        margins = _loop_margins(model, pid)
-        if margins is None:
-            problems.append("loop margins need drivekit.margins, which this installation does not have")
-        else:
-            found["margins"] = margins
-            results += _margin_results(margins, design)
+        loop = design.evaluate()
+        found["margins"] = loop.margins
+        results += _loop_results(loop)
     return Evaluation(design, tuple(results), tuple(problems), **found)
