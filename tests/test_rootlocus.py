@@ -1,0 +1,85 @@
+"""Root locus against textbook results and python-control."""
+
+import math
+
+import control
+import numpy as np
+import pytest
+import scipy.optimize
+
+from drivekit.loop import as_linear
+from drivekit.rootlocus import root_locus
+from drivekit.units import ParameterError
+
+
+def test_break_away_of_integrator_lag():
+    rl = root_locus(control.tf([1.0], [1.0, 1.0, 0.0]))
+    # Source: Ogata, Modern Control Engineering, 5th ed., Ch. 6: K/(s(s+1)) breaks away at s = -0.5, K = 0.25
+    assert [b.s for b in rl.break_points] == [pytest.approx(-0.5, abs=1e-12)]
+    assert rl.break_points[0].gain == pytest.approx(0.25, rel=1e-12)
+    assert rl.centroid == pytest.approx(-0.5, abs=1e-12)
+    assert rl.asymptote_angles == (90.0, 270.0)
+    assert math.isnan(rl.ultimate_gain)
+
+
+def test_third_order_break_away_and_ultimate_gain():
+    rl = root_locus(control.tf([1.0], [1.0, 3.0, 2.0, 0.0]))
+    # Source: Ogata 5th ed., Ch. 6 (Example of K/(s(s+1)(s+2))): break-away at s = -1 + 1/sqrt(3) (-0.4226),
+    # imaginary-axis crossing at K = 6, w = sqrt(2) (Routh array)
+    assert [b.s for b in rl.break_points] == [pytest.approx(-1 + 1 / math.sqrt(3), abs=1e-12)]
+    assert rl.ultimate_gain == pytest.approx(6.0, rel=1e-10)
+    assert rl.crossing_frequencies[0] == pytest.approx(math.sqrt(2.0), rel=1e-10)
+    assert rl.centroid == pytest.approx(-1.0, abs=1e-12)
+    assert rl.asymptote_angles == (60.0, 180.0, 300.0)
+    # the range goes well past the crossing
+    assert rl.gains[0] == 0.0
+    assert rl.gains[-1] >= 100 * 6.0
+
+
+def test_branches_match_closed_loop_eigenvalues_and_python_control():
+    g = control.tf([1.0, 2.0], [1.0, 1.5, 4.0, 0.0])
+    rl = root_locus(g)
+    for i in range(0, len(rl.gains), 37):
+        k = rl.gains[i]
+        # Source: eigenvalues of python-control's closed loop feedback(K G)
+        ref = np.sort_complex(control.poles(control.feedback(k * g))) if k > 0 else np.sort_complex(control.poles(g))
+        np.testing.assert_allclose(np.sort_complex(rl.branches[i]), ref, atol=1e-8 * max(1, np.max(np.abs(ref))))
+    # Source: python-control root_locus_map at the same gains
+    rlm = control.root_locus_map(g, rl.gains[1:20])
+    for ours, theirs in zip(rl.branches[1:20], np.asarray(rlm.loci), strict=True):
+        np.testing.assert_allclose(np.sort_complex(ours), np.sort_complex(theirs), atol=1e-8)
+    # branches are continuous: successive points stay close compared with the spread of the poles
+    steps = np.abs(np.diff(rl.branches, axis=0))
+    assert np.max(steps[:-5]) < 0.5 * np.max(np.abs(rl.branches[:-5]))
+
+
+def test_present_gain_poles_with_damping():
+    g = control.tf([4.0], [1.0, 1.0, 0.0])
+    rl = root_locus(g)
+    # Source: s^2 + s + 4 = 0: wn = 2, zeta = 1/4 (Ogata 5th ed., §5-3 standard form)
+    assert len(rl.poles) == 1
+    assert rl.poles[0].natural_frequency == pytest.approx(2.0, rel=1e-12)
+    assert rl.poles[0].damping == pytest.approx(0.25, rel=1e-12)
+
+
+def test_dead_time_uses_pade_and_says_so():
+    model = as_linear(control.tf([1.0], [1.0, 1.0]), delay=1.0)
+    rl = root_locus(model, pade_order=4)
+    assert rl.pade_order == 4
+    assert "Pade" in rl.note
+    # Source: python-control closed-loop poles with control.pade(1, 4) at K = 1
+    num, den = control.pade(1.0, 4)
+    ref = np.sort_complex(control.poles(control.feedback(control.tf([1.0], [1.0, 1.0]) * control.tf(num, den))))
+    ours = [p.pole for p in rl.poles] + [p.pole.conjugate() for p in rl.poles if p.pole.imag > 0]
+    np.testing.assert_allclose(np.sort_complex(ours), ref, rtol=1e-8)
+    # Source: Astrom & Hagglund, IFAC PID'00 (2000), e^{-s}/(1+s): exact ultimate gain sqrt(1 + w^2) with
+    # w + atan(w) = pi (solved with brentq); the 4th-order Pade model comes within 0.2 %
+    w180 = scipy.optimize.brentq(lambda w: w + math.atan(w) - math.pi, 0.1, 3.0, xtol=1e-14)
+    assert rl.ultimate_gain == pytest.approx(math.sqrt(1 + w180**2), rel=2e-3)
+
+
+def test_bad_input():
+    with pytest.raises(ParameterError, match="`gains`"):
+        root_locus(control.tf([1.0], [1.0, 1.0]), gains=[-1.0, 2.0])
+    with pytest.raises(ParameterError, match="`order`"):
+        root_locus(as_linear(control.tf([1.0], [1.0, 1.0]), delay=1.0), pade_order=0)
