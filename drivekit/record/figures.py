@@ -19,8 +19,6 @@ from .results import Evaluation
 __all__ = ["bode_figure", "operating_figure", "step_figure", "svg_text"]
 
 _RPM = 60.0 / (2.0 * math.pi)
-#: Pade order used for the dead time inside the closed loop of the step figure only. [-]
-PADE_ORDER = 6
 
 
 def svg_text(fig: Any, salt: str) -> str:
@@ -41,41 +39,27 @@ def _figure(height: float = 3.2) -> Any:
     return Figure(figsize=(6.4, height), dpi=100, layout="constrained")
 
 
-def _span(model: Any) -> float:
-    tcs = [t for t in model.time_constants if math.isfinite(t) and t > 0]
-    slowest = max(tcs) if tcs else 1.0
-    return model.delay + 8.0 * slowest
-
-
 def step_figure(ev: Evaluation) -> str:
-    """Step response: closed loop to a setpoint step with a controller, else the plant to an input step."""
-    import control
+    """Step response (dead time exact): closed loop to a setpoint step with a controller, else the plant."""
+    from ..responses import step_response
 
     model = ev.model
     fig = _figure()
     ax = fig.add_subplot()
-    pid = ev.design.controller
     scale = model.display_scale
-    if pid is None:
-        t = np.linspace(0.0, _span(model), 600)
-        _, y0 = control.step_response(model.ss, t)
-        y = np.interp(t - model.delay, t, y0, left=0.0) * scale  # the dead time as an exact shift
-        ax.plot(t, y, color="C0")
+    if ev.design.controller is None:
+        resp = step_response(model)
+        ax.plot(resp.t, resp.y * scale, color="C0")
         ax.set_title(f"Plant: {model.output_name} after a unit step of {model.input_name}")
         ax.set_ylabel(f"{model.output_name} change [{model.output_display_unit}]")
     else:
-        plant = model.pade(PADE_ORDER)
-        closed = control.feedback(pid.tf * plant, 1)
-        poles = closed.poles()
-        stable = bool(np.all(poles.real < 0))
-        slow = min((-p.real for p in poles if p.real < 0), default=1.0)
-        t = np.linspace(0.0, min(model.delay + 8.0 / slow, 1e4), 800)
-        _, y = control.step_response(closed, t)
-        ax.plot(t, y, color="C0", label="measured value")
+        resp = ev.result.setpoint_step
+        stable = ev.margins is not None and ev.margins.stable
+        ax.plot(resp.t, resp.y, color="C0", label="measured value")
         ax.axhline(1.0, color="0.5", lw=0.8, ls="--", label="setpoint")
         ax.legend(loc="lower right")
         verdict = "" if stable else " (UNSTABLE)"
-        ax.set_title(f"Closed loop: unit setpoint step{verdict}; dead time by Pade order {PADE_ORDER}")
+        ax.set_title(f"Closed loop: unit setpoint step{verdict}")
         ax.set_ylabel("measured value / setpoint step [-]")
     ax.set_xlabel("time [s]")
     ax.grid(True, alpha=0.3)

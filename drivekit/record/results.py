@@ -70,6 +70,8 @@ class Evaluation:
         Controller settings in plant units (needs a controller and both spans).
     margins : Margins or None
         Loop margins (from :meth:`Design.evaluate`), with a controller.
+    result : DesignResult or None
+        The core's one evaluation of the design, which every number here comes from.
     """
 
     design: Design
@@ -80,6 +82,7 @@ class Evaluation:
     series_model: Any = None
     settings: Any = None
     margins: Any = None
+    result: Any = None
 
     def to_json(self) -> dict[str, dict[str, Any]]:
         """Machine-readable results: ``{key: {"value": number or text, "unit": unit}}``.
@@ -176,14 +179,13 @@ def evaluate(design: Design) -> Evaluation:
     problems: list[str] = []
     found: dict[str, Any] = {}
     try:
-        op = design.operating_point()
+        result = design.evaluate()
     except ValueError as exc:
         problems.append(f"no operating point: {exc}")
         return Evaluation(design, tuple(results), tuple(problems))
-    found["operating_point"] = op
+    op, model = result.operating_point, result.plant
+    found.update(result=result, operating_point=op, model=model, margins=result.margins)
     results += _operating_results(op)
-    model = design.train.linearize(op)
-    found["model"] = model
     try:
         series = design.train.series_approximation(op)
     except ValueError as exc:
@@ -197,12 +199,10 @@ def evaluate(design: Design) -> Evaluation:
     else:
         if design.measurement_span is not None:
             out_span = design.output_span if design.output_span is not None else (0.0, 100.0)
-            settings = pid.settings(design.measurement_span, out_span)
+            settings = result.settings or pid.settings(design.measurement_span, out_span)
             found["settings"] = settings
             results += _settings_results(settings)
         else:
             problems.append("no measurement span: controller settings in %/% are left out")
-        loop = design.evaluate()
-        found["margins"] = loop.margins
-        results += _loop_results(loop)
+        results += _loop_results(result)
     return Evaluation(design, tuple(results), tuple(problems), **found)
