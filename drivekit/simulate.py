@@ -519,7 +519,8 @@ class _FastPlant:
         else:
             reflected = t.reflected_inertia(train.machine.J) if t is not None else train.machine.J
             self.j_rigid = float(m.J + reflected)
-        w0 = float(getattr(train.machine, "speed", None) or getattr(train.machine, "rated_speed", 100.0))
+        # speed scale to probe over: the pump curve's speed, a fan's rated speed, else 100 rad/s
+        w0 = float(getattr(train.machine, "speed", 0.0) or getattr(train.machine, "rated_speed", 0.0) or 100.0)
         q0 = float(train.machine.curve.max_flow) if train.is_pump else 0.0  # type: ignore[union-attr]
         self.load = _quadratic(train.machine_torque, w0, q0, "machine torque")
         self.density = float(train.fluid.density)
@@ -544,17 +545,9 @@ class _FastPlant:
         self.dq = float(grid[1])
         self.q_top = q_max
 
-    def friction(self, q: float) -> float:
-        """Friction head of the line at flow ``q`` [m**3/s], signed with the flow. [m]"""
-        a = -q if q < 0 else q
-        if a >= self.q_top:
-            f = float(self.train.system_head(a)) - self.static
-        else:
-            x = a / self.dq
-            i = int(x)
-            lo = self.table[i]
-            f = lo + (x - i) * (self.table[i + 1] - lo)
-        return -f if q < 0 else f
+    def friction(self, flow: float) -> float:
+        """Friction head of the line at ``flow`` >= 0 [m**3/s] from the model, beyond the table. [m]"""
+        return float(self.train.system_head(flow)) - self.static
 
     def _supply_band(self) -> None:
         """Supply (Hz or V) the drive lets through at motor speed w: lo0 + slope w .. hi0 + slope w."""
@@ -565,10 +558,6 @@ class _FastPlant:
         elif self.tlim < math.inf:
             self.slope = -self.tw / self.ts
             self.lo0, self.hi0 = (-self.tlim - self.t0) / self.ts, (self.tlim - self.t0) / self.ts
-
-    def supply_limits(self, w: float) -> tuple[float, float]:
-        """Lowest and highest supply (Hz or V) the drive lets through at motor speed ``w`` [rad/s]."""
-        return self.lo0 + self.slope * w, self.hi0 + self.slope * w
 
     def demand(self, u: float) -> float:
         """The supply the drive heads for at input ``u`` (reference clipped to its range)."""
@@ -595,6 +584,7 @@ class _FastPlant:
         ratio, fwd, back, bm = self.ratio, self.fwd, self.back, self.motor_b
         l0, l1, l2, l3, l4, l5 = self.load
         compliant = i_th is not None
+        wl_i, th_i = (i_wl or 0), (i_th or 0)  # plain ints for the compliant branches
         K, c_tw, j_l, j_m = (self.K, self.c_tw, self.j_l, self.motor_j) if compliant else (0.0, 0.0, 1.0, 1.0)
         j_rigid = 1.0 if compliant else self.j_rigid
         measured, friction = self.measured, self.friction
@@ -621,14 +611,14 @@ class _FastPlant:
             else:
                 torque = t0 + ts * supply + tw * w
             torque = -tlim if torque < -tlim else (tlim if torque > tlim else torque)
-            wl = x[i_wl] if compliant else w / ratio
+            wl = x[wl_i] if compliant else w / ratio
             q = x[i_q] if i_q is not None else 0.0
             load = l0 + l1 * wl + l2 * q + l3 * wl * wl + l4 * wl * q + l5 * q * q
             if compliant:
-                shaft = K * x[i_th] + c_tw * (w / ratio - wl)
+                shaft = K * x[th_i] + c_tw * (w / ratio - wl)
                 dx[i_w] = (torque - bm * w - shaft * (fwd if shaft * wl >= 0 else back)) / j_m
-                dx[i_wl] = (shaft - load) / j_l
-                dx[i_th] = w / ratio - wl
+                dx[wl_i] = (shaft - load) / j_l
+                dx[th_i] = w / ratio - wl
             else:
                 dx[i_w] = (torque - bm * w - load * (fwd if load * wl >= 0 else back)) / j_rigid
             if i_q is not None:
@@ -678,7 +668,7 @@ class _FastPlant:
                 x[self.i_q] = min(abs(x[self.i_q]), 0.9 * self.q_top)
             u = u0 * (1.0 + 0.1 * rng.standard_normal())
             fast = self.rates(x.tolist(), self.demand(u))
-            lo, hi = self.supply_limits(x[self.i_w])
+            lo, hi = self.lo0 + self.slope * x[self.i_w], self.hi0 + self.slope * x[self.i_w]
             supply = x[self.i_f] if self.i_f is not None else self.demand(u)
             if not (lo < supply < hi and lo < self.demand(u) < hi):
                 continue  # the model has no torque limit; compare only inside it
@@ -917,6 +907,7 @@ def simulate(
     for d in scenario.disturbances:
         events.setdefault(_scan_of(d.time, h), []).append(("disturbance", d))
     delay = train.dead_time / h
+    delay = round(delay) if abs(delay - round(delay)) < 1e-9 else delay
     lag, frac = int(delay), delay - int(delay)
     substeps = _substeps(train, x, u, h)
     most_substeps = substeps
