@@ -151,9 +151,12 @@ def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndar
 def _follow(roots: np.ndarray) -> np.ndarray:
     """Order roots so that each column moves continuously from one gain to the next."""
     out = roots.copy()
+    n = roots.shape[1]
     for i in range(1, len(out)):
         cost = np.abs(out[i - 1][:, None] - roots[i][None, :])
-        _, col = scipy.optimize.linear_sum_assignment(cost)
+        col = np.argmin(cost, axis=1)
+        if len(set(col.tolist())) < n:  # nearest neighbours clash: optimal assignment
+            col = scipy.optimize.linear_sum_assignment(cost)[1]
         out[i] = roots[i][col]
     return out
 
@@ -205,7 +208,7 @@ def _break_points(num: np.ndarray, den: np.ndarray) -> list[BreakPoint]:
     return sorted(out, key=lambda b: b.s)
 
 
-def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 200) -> RootLocus:
+def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150) -> RootLocus:
     """Root locus of unity negative feedback around K L(s), K from 0 up.
 
     Parameters
