@@ -42,7 +42,7 @@ class LoopDesignBoard(w.AppLayout):
     metrics : MetricsTable
     """
 
-    def __init__(self, design: Design | DesignModel, *, delay: float = 0.03, on_record: Any = None) -> None:
+    def __init__(self, design: Design | DesignModel, *, delay: float = 0.01, on_record: Any = None) -> None:
         self.model = _model(design, delay)
         self.panel = ParameterPanel(self.model, on_record=on_record)
         self.step = StepView(self.model)
@@ -78,7 +78,7 @@ class ModelExplorationBoard(w.AppLayout):
         Coalescing delay of a new model. [s]
     """
 
-    def __init__(self, design: Design | DesignModel, *, delay: float = 0.03) -> None:
+    def __init__(self, design: Design | DesignModel, *, delay: float = 0.01) -> None:
         self.model = _model(design, delay)
         self.panel = ParameterPanel(self.model)
         self.operating = OperatingPointView(self.model)

@@ -29,7 +29,9 @@ LOAD_STEP = 0.05
 TIME_POINTS = 400
 FREQUENCY_POINTS = 400
 #: Controller-gain multipliers along the root locus. [-]
-LOCUS_GAINS = np.logspace(-2, 2, 161)
+LOCUS_GAINS = np.logspace(-2, 2, 81)
+#: Pade order for the stability margins (close to the exact dead time near crossover). [-]
+MARGIN_PADE_ORDER = 6
 
 #: Pump speeds drawn, as fractions of the speed of the maker's curve. [-]
 CURVE_SPEED_FRACTIONS = (1.0, 0.9, 0.8, 0.7, 0.6)
@@ -276,10 +278,10 @@ def loop_data(design: Design, op: Any, plant: LinearModel) -> LoopData:
 
     Notes
     -----
-    Frequency responses keep the dead time exact (``LinearModel.frequency_response``);
-    margins are read from that sampled response by python-control's
-    ``stability_margins``. Time responses, poles and the root locus use a
-    Pade approximation of order :data:`PADE_ORDER` for the dead time.
+    Frequency responses keep the dead time exact (``LinearModel.frequency_response``).
+    Margins come from python-control's ``stability_margins`` with the dead
+    time as a Pade approximation of order :data:`MARGIN_PADE_ORDER`; time
+    responses, poles and the root locus use order :data:`PADE_ORDER`.
     """
     c = design.controller.tf
     g = plant.pade(PADE_ORDER)
@@ -287,8 +289,8 @@ def loop_data(design: Design, op: Any, plant: LinearModel) -> LoopData:
     lw = np.asarray(c(1j * omega)).reshape(-1) * plant.frequency_response(omega)
     s_w = 1.0 / (1.0 + lw)
     t_w = lw / (1.0 + lw)
-    gm, pm, _sm, wpc, wgc, _wms = control.stability_margins(control.frd(lw, omega), returnall=False)
     open_loop = c * g
+    gm, pm, _sm, wpc, wgc, _wms = control.stability_margins(c * plant.pade(MARGIN_PADE_ORDER))
     closed = control.feedback(open_loop, 1)
     poles = np.asarray(control.poles(closed))
     zeros = np.asarray(control.zeros(closed))
@@ -301,7 +303,7 @@ def loop_data(design: Design, op: Any, plant: LinearModel) -> LoopData:
     sp_y = _response(closed, t)
     sp_u = _response(control.feedback(c, g), t)
     ld_y = _response(control.feedback(g, c), t)
-    ld_u = -_response(closed, t)
+    ld_u = -sp_y
     stable = bool(np.all(poles.real < 0))
     info = control.step_info(sp_y, t, SettlingTimeThreshold=0.02) if stable else {}
     locus = np.asarray(control.root_locus_map(open_loop, LOCUS_GAINS).loci)

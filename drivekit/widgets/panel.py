@@ -141,16 +141,17 @@ class ParameterRow(w.VBox):
             return
         rng = self._range
         lo, hi = sorted((self._to_display(rng.low), self._to_display(rng.high)))
+        if rng.log:
+            lo, hi = math.log10(lo), math.log10(hi)
         with self.slider.hold_sync():
-            if rng.log:
-                a, b = math.log10(lo), math.log10(hi)
-                self.slider.min, self.slider.max = -1e300, 1e300
-                self.slider.min, self.slider.max = a, b
-                self.slider.step = (b - a) / _SLIDER_STEPS
+            # widen first, then narrow, so min <= max holds at every step
+            if lo > self.slider.max:
+                self.slider.max = hi
+                self.slider.min = lo
             else:
-                self.slider.min, self.slider.max = -math.inf, math.inf
-                self.slider.min, self.slider.max = lo, hi
-                self.slider.step = (hi - lo) / _SLIDER_STEPS
+                self.slider.min = lo
+                self.slider.max = hi
+            self.slider.step = (hi - lo) / _SLIDER_STEPS
 
     def show(self, si: Any) -> None:
         """Show an SI value in the entry box and on the slider (no change to the design)."""
