@@ -4,7 +4,7 @@ Nothing here imports IPython at import time; the record cell's display
 function uses it only inside a running notebook kernel.
 """
 
-from .designfile import DesignFileError, dumps_design, load_design, loads_design, save_design
+from .designfile import DesignFileError, design_writer, dumps_design, load_design, loads_design, save_design
 from .diff import DesignDiff, diff_designs
 from .record import CalculationRecord, build_record, record
 from .results import Evaluation, Result, evaluate
@@ -16,6 +16,7 @@ __all__ = [
     "Evaluation",
     "Result",
     "build_record",
+    "design_writer",
     "diff_designs",
     "dumps_design",
     "evaluate",

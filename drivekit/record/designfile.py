@@ -32,6 +32,7 @@ and renames it over the old file, so a crash leaves the previous file intact.
 from __future__ import annotations
 
 import dataclasses
+import datetime
 import math
 import os
 import re
@@ -388,6 +389,38 @@ def save_design(design: Design, path: str | os.PathLike[str]) -> Path:
         raise
     _sync_folder(folder)
     return target
+
+
+def design_writer(path: str | os.PathLike[str]) -> Any:
+    """A Record-button hook for the widgets' parameter panel: saves the design it is given to ``path``.
+
+    Parameters
+    ----------
+    path : str or path-like
+        The design file next to the notebook.
+
+    Returns
+    -------
+    callable
+        ``write(design) -> str``; the text says where and when it was saved.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib, drivekit as dk
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> write = design_writer(folder / "loop.toml")
+    >>> design = dk.Design(train=dk.demo.raw_water_pump(), operating=("flow", "380 m**3/h"))
+    >>> write(design).startswith("saved to loop.toml")
+    True
+    """
+    target = Path(path)
+
+    def write(design: Design) -> str:
+        save_design(design, target)
+        stamp = datetime.datetime.now().strftime("%Y-%m-%d %H:%M:%S")
+        return f"saved to {target.name} at {stamp}; Restart and Run All now reproduces this design"
+
+    return write
 
 
 def _sync_folder(folder: Path) -> None:
