@@ -161,7 +161,7 @@ class BodeView(View):
     def __init__(self, model: DesignModel, hertz: bool = False) -> None:
         self.freq_scale = bq.LogScale()
         mag = bq.LinearScale()
-        ph = bq.LinearScale()
+        ph = bq.LinearScale(min=-540.0, max=90.0)  # beyond -540 deg the dead time only winds on
         self.magnitude = bq.Lines(
             x=[1.0, 2.0],
             y=[0.0, 0.0],
@@ -192,8 +192,12 @@ class BodeView(View):
         self.phase_marks = bq.Scatter(
             x=[1.0], y=[0.0], scales={"x": self.freq_scale, "y": ph}, colors=[PALETTE["vermillion"]], default_size=40
         )
-        self.freq_axis = bq.Axis(scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed")
-        self.freq_axis_2 = bq.Axis(scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed")
+        self.freq_axis = bq.Axis(
+            scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed", tick_format=".0e", num_ticks=6
+        )
+        self.freq_axis_2 = bq.Axis(
+            scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed", tick_format=".0e", num_ticks=6
+        )
         self.mag_figure = figure(
             [self.unity, self.magnitude, self.crossovers],
             [self.freq_axis, bq.Axis(scale=mag, side="left", label="|L| [dB]", grid_lines="dashed")],
@@ -332,7 +336,7 @@ class SensitivityView(View):
         self.figure = figure(
             [self.curves, self.peaks],
             [
-                bq.Axis(scale=f, label="frequency [rad/s]", grid_lines="dashed"),
+                bq.Axis(scale=f, label="frequency [rad/s]", grid_lines="dashed", tick_format=".0e", num_ticks=6),
                 bq.Axis(scale=m, side="left", label="magnitude [dB]", grid_lines="dashed"),
             ],
             "Sensitivity",
