@@ -4,7 +4,7 @@ The core (this package) is plain computation with SI floats inside and units
 at the boundary; :mod:`drivekit.widgets` draws it in Jupyter.
 """
 
-from . import demo, identify, slurry, surge, tuning, units
+from . import demo, identify, simulate, slurry, surge, tuning, units
 from .design import Design, DesignInfo, Targets
 from .drives import VariableSpeedDrive
 from .drivetrain import DriveTrain
@@ -85,6 +85,7 @@ __all__ = [
     "load_response",
     "loop_margins",
     "make_variants",
+    "simulate",
     "slurry",
     "step_metrics",
     "step_response",
