@@ -378,7 +378,12 @@ def loop_margins(L: Any, delay: float = 0.0) -> Margins:
     t_abs = mag * s_abs
     ms, _ = _peak(lambda x: 1.0 / abs(1.0 + resp(x)), w, s_abs)
     mt, _ = _peak(lambda x: abs(resp(x)) / abs(1.0 + resp(x)), w, t_abs)
-    bw = _bandwidth(w, t_abs, resp, _dc_complementary(z, p, k))
+    t0, s0 = _dc_sensitivities(z, p, k)
+    d_inf = float(model.D[0, 0])
+    # the peaks may sit at the ends of the axis (w -> 0 or w -> inf)
+    ms = max(ms, s0, 1.0 / abs(1.0 + d_inf))
+    mt = max(mt, t0, abs(d_inf / (1.0 + d_inf)))
+    bw = _bandwidth(w, t_abs, resp, t0)
     verdict = _verdict(stable, n_rhp_cl, n_rhp_ol, gains, phases)
     with np.errstate(divide="ignore"):
         gm_db = 20.0 * math.log10(gm) if gm > 0 else -math.inf
@@ -393,18 +398,20 @@ def _ph(val: complex) -> float:
     return ph - 360.0 if ph > 0 else ph
 
 
-def _dc_complementary(z: np.ndarray, p: np.ndarray, k: float) -> float:
-    """|T(0)|: 1 with an integrator in L, else |L(0)/(1 + L(0))|."""
+def _dc_sensitivities(z: np.ndarray, p: np.ndarray, k: float) -> tuple[float, float]:
+    """(|T(0)|, |S(0)|): (1, 0) with an integrator in L, else from L(0)."""
     scale = max(1.0, float(np.max(np.abs(np.concatenate([z, p])), initial=0.0)))
     n_int = int(np.sum(np.abs(p) < 1e-12 * scale)) - int(np.sum(np.abs(z) < 1e-12 * scale))
     if n_int > 0:
-        return 1.0
+        return 1.0, 0.0
     if n_int < 0:
-        return 0.0
+        return 0.0, 1.0
     pz = p[np.abs(p) >= 1e-12 * scale]
     zz = z[np.abs(z) >= 1e-12 * scale]
     l0 = (k * np.prod(-zz) / np.prod(-pz)).real
-    return abs(l0 / (1.0 + l0)) if l0 != -1.0 else math.inf
+    if l0 == -1.0:
+        return math.inf, math.inf
+    return abs(l0 / (1.0 + l0)), abs(1.0 / (1.0 + l0))
 
 
 def _bandwidth(w: np.ndarray, t_abs: np.ndarray, resp: Any, ref: float) -> float:

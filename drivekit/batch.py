@@ -1,0 +1,636 @@
+"""Margins and step metrics for many variants of a loop at once, vectorised in numpy.
+
+The same definitions as :func:`drivekit.margins.loop_margins` and
+:func:`drivekit.margins.step_metrics`; loops run over grid points, bisection
+steps and time steps, never over variants. Results agree with the
+single-variant functions to round-off (tested).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from collections.abc import Sequence
+from typing import Any
+
+import numpy as np
+import scipy.linalg
+
+from .linear import LinearModel
+from .loop import as_linear
+from .margins import step_metric_arrays
+from .responses import _LN_SETTLE
+from .units import ParameterError
+
+__all__ = ["BatchMargins", "BatchStepMetrics", "ModelBatch", "batch_loop_margins", "batch_step_metrics"]
+
+_CHUNK = 2000
+_PER_DECADE = 60
+_BISECT = 60
+
+
+@dataclasses.dataclass(frozen=True, eq=False)
+class ModelBatch:
+    """N single-input single-output linear models of the same order, stacked.
+
+    Attributes
+    ----------
+    A : numpy.ndarray
+        (N, n, n) state matrices. [1/s]
+    B : numpy.ndarray
+        (N, n, 1) input matrices.
+    C : numpy.ndarray
+        (N, 1, n) output matrices.
+    D : numpy.ndarray
+        (N, 1, 1) feedthrough.
+    delay : numpy.ndarray
+        (N,) dead times. [s]
+    """
+
+    A: np.ndarray
+    B: np.ndarray
+    C: np.ndarray
+    D: np.ndarray
+    delay: np.ndarray
+
+    def __post_init__(self) -> None:
+        N, n = self.A.shape[0], self.A.shape[1]
+        shapes = {"A": (N, n, n), "B": (N, n, 1), "C": (N, 1, n), "D": (N, 1, 1), "delay": (N,)}
+        for name, shape in shapes.items():
+            if np.shape(getattr(self, name)) != shape:
+                raise ParameterError(f"`{name}`: got shape {np.shape(getattr(self, name))}, expected {shape}")
+        if np.any(self.delay < 0) or not np.all(np.isfinite(self.delay)):
+            raise ParameterError("`delay`: expected dead times >= 0 s")
+
+    @classmethod
+    def stack(cls, models: Sequence[Any]) -> ModelBatch:
+        """Stack LinearModels (or convertible objects) of the same order into one batch.
+
+        Parameters
+        ----------
+        models : sequence of LinearModel
+            The variants.
+        """
+        ms = [as_linear(m) for m in models]
+        if not ms:
+            raise ParameterError("`models`: got an empty sequence, expected at least one model")
+        orders = {m.order for m in ms}
+        if len(orders) != 1:
+            raise ParameterError(f"`models`: got orders {sorted(orders)}, expected models of one order")
+        return cls(
+            np.stack([m.A for m in ms]).astype(float),
+            np.stack([m.B for m in ms]).astype(float),
+            np.stack([m.C for m in ms]).astype(float),
+            np.stack([m.D for m in ms]).astype(float),
+            np.array([m.delay for m in ms], dtype=float),
+        )
+
+    def __len__(self) -> int:
+        return int(self.A.shape[0])
+
+    @property
+    def order(self) -> int:
+        """Number of states of each model."""
+        return int(self.A.shape[1])
+
+    def model(self, i: int) -> LinearModel:
+        """Variant ``i`` as a LinearModel."""
+        return LinearModel(self.A[i], self.B[i], self.C[i], self.D[i], delay=float(self.delay[i]))
+
+    def subset(self, index: Any) -> ModelBatch:
+        """The variants selected by ``index`` (slice or index array)."""
+        return ModelBatch(self.A[index], self.B[index], self.C[index], self.D[index], self.delay[index])
+
+
+def _as_batch(x: Any, count: int | None = None) -> ModelBatch:
+    if isinstance(x, ModelBatch):
+        return x
+    m = as_linear(x)
+    n = count or 1
+    return ModelBatch(
+        np.broadcast_to(m.A, (n, m.order, m.order)).copy(),
+        np.broadcast_to(m.B, (n, m.order, 1)).copy(),
+        np.broadcast_to(m.C, (n, 1, m.order)).copy(),
+        np.broadcast_to(m.D, (n, 1, 1)).copy(),
+        np.full(n, m.delay),
+    )
+
+
+def loop_matrices(plant: ModelBatch, controller: ModelBatch) -> tuple[np.ndarray, ...]:
+    """Controller then plant in series: A, B (e, d), C (y0, u), D as stacked arrays (see drivekit.loop.LoopMatrices)."""
+    N = len(plant)
+    c, g = controller, plant
+    nc, ng = c.order, g.order
+    A = np.zeros((N, nc + ng, nc + ng))
+    A[:, :nc, :nc] = c.A
+    A[:, nc:, :nc] = g.B @ c.C
+    A[:, nc:, nc:] = g.A
+    B = np.zeros((N, nc + ng, 2))
+    B[:, :nc, 0:1] = c.B
+    B[:, nc:, 0:1] = g.B @ c.D
+    B[:, nc:, 1:2] = g.B
+    C = np.zeros((N, 2, nc + ng))
+    C[:, 0:1, :nc] = g.D @ c.C
+    C[:, 0:1, nc:] = g.C
+    C[:, 1:2, :nc] = c.C
+    D = np.zeros((N, 2, 2))
+    D[:, 0, 0] = g.D[:, 0, 0] * c.D[:, 0, 0]
+    D[:, 0, 1] = g.D[:, 0, 0]
+    D[:, 1, 0] = c.D[:, 0, 0]
+    return A, B, C, D
+
+
+def _pair(plant: Any, controller: Any) -> tuple[ModelBatch, ModelBatch]:
+    p = _as_batch(plant)
+    c = _as_batch(controller, len(p)) if not isinstance(controller, ModelBatch) else controller
+    if len(c) != len(p):
+        raise ParameterError(f"`controller`: got {len(c)} controllers for {len(p)} plants, expected one or as many")
+    if np.any(c.delay != 0):
+        raise ParameterError("`controller`: expected controllers without dead time (put it in the plant)")
+    return p, c
+
+
+# ---------------------------------------------------------------------------------------
+# margins
+@dataclasses.dataclass(frozen=True, eq=False)
+class BatchMargins:
+    """Margins of N loops; each attribute is an array of length N (units as in drivekit.margins.Margins)."""
+
+    gain_margin: np.ndarray
+    gain_margin_db: np.ndarray
+    phase_margin: np.ndarray
+    gain_crossover: np.ndarray
+    phase_crossover: np.ndarray
+    delay_margin: np.ndarray
+    ms: np.ndarray
+    mt: np.ndarray
+    bandwidth: np.ndarray
+    stable: np.ndarray
+    unstable_poles: np.ndarray
+
+    def to_frame(self) -> Any:
+        """One row per variant (pandas DataFrame)."""
+        import pandas as pd
+
+        return pd.DataFrame({f.name: getattr(self, f.name) for f in dataclasses.fields(self)})
+
+
+def _poly_from_roots(r: np.ndarray) -> np.ndarray:
+    """Monic polynomial coefficients (highest first) for each row of roots, real part."""
+    N, n = r.shape
+    c = np.zeros((N, n + 1), complex)
+    c[:, 0] = 1.0
+    for j in range(n):
+        c[:, 1 : j + 2] = c[:, 1 : j + 2] - r[:, j : j + 1] * c[:, : j + 1]
+    return c.real
+
+
+def _horner(c: np.ndarray, s: np.ndarray) -> np.ndarray:
+    """Evaluate rows of coefficients c (N, k) at s (N, W)."""
+    out = np.broadcast_to(c[:, :1], s.shape).astype(complex)
+    for j in range(1, c.shape[1]):
+        out = out * s + c[:, j : j + 1]
+    return out
+
+
+class _OpenLoops:
+    """L_i(s) = num_i(s)/den_i(s) e^{-s theta_i} for a chunk of variants."""
+
+    def __init__(self, A: np.ndarray, B: np.ndarray, C: np.ndarray, D: np.ndarray, delay: np.ndarray) -> None:
+        self.poles = np.linalg.eigvals(A)
+        self.den = _poly_from_roots(self.poles)
+        closed = np.linalg.eigvals(A - B @ C)
+        # det(sI - A + BC) = det(sI - A) (1 + C (sI - A)^-1 B)  (matrix determinant lemma)
+        self.num = _poly_from_roots(closed) - self.den + D[:, 0, :1] * self.den
+        self.delay = delay
+        self.d = D[:, 0, 0]
+        self.A, self.B, self.C = A, B, C
+
+    def at(self, rows: np.ndarray, w: np.ndarray) -> np.ndarray:
+        s = 1j * w
+        return _horner(self.num[rows], s) / _horner(self.den[rows], s) * np.exp(-s * self.delay[rows][:, None])
+
+
+def _bisect(f: Any, rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Vectorised bisection on log w of f(rows, w) with a sign change in [a, b]."""
+    la, lb = np.log(a), np.log(b)
+    fa = f(rows, a)
+    for _ in range(_BISECT):
+        mid = 0.5 * (la + lb)
+        fm = f(rows, np.exp(mid))
+        left = np.sign(fm) == np.sign(fa)
+        la = np.where(left, mid, la)
+        fa = np.where(left, fm, fa)
+        lb = np.where(left, lb, mid)
+    return np.exp(0.5 * (la + lb))
+
+
+def _golden_max(f: Any, rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Vectorised golden-section search for the maximum of f(rows, w) on log w in [a, b]."""
+    g = (math.sqrt(5) - 1) / 2
+    la, lb = np.log(a), np.log(b)
+    x1, x2 = lb - g * (lb - la), la + g * (lb - la)
+    f1, f2 = f(rows, np.exp(x1)), f(rows, np.exp(x2))
+    for _ in range(50):
+        right = f2 > f1
+        la = np.where(right, x1, la)
+        lb = np.where(right, lb, x2)
+        x1n = np.where(right, x2, lb - g * (lb - la))
+        x2n = np.where(right, la + g * (lb - la), x1)
+        f1n = np.where(right, f2, np.nan)
+        f2n = np.where(right, np.nan, f1)
+        need1, need2 = ~right, right
+        x1, x2 = x1n, x2n
+        f1 = np.where(need1, f(rows, np.exp(x1)), f1n)
+        f2 = np.where(need2, f(rows, np.exp(x2)), f2n)
+    x = 0.5 * (la + lb)
+    return f(rows, np.exp(x)), np.exp(x)
+
+
+def _sign_change_pairs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    s = np.sign(x)
+    return np.nonzero((s[:, :-1] * s[:, 1:] < 0) | (s[:, :-1] == 0))
+
+
+def _chunk_margins(ol: _OpenLoops, w: np.ndarray) -> dict[str, np.ndarray]:
+    N = len(ol.delay)
+    rows_all = np.arange(N)
+    W = np.broadcast_to(w, (N, len(w)))
+    lw = ol.at(rows_all, W)
+    mag = np.abs(lw)
+    inf = np.full(N, np.inf)
+    nan = np.full(N, np.nan)
+    # gain crossovers
+    r, i = _sign_change_pairs(np.log(np.maximum(mag, 1e-300)))
+    wc = _bisect(lambda rr, ww: np.log(np.abs(ol.at(rr, ww[:, None])[:, 0])), r, w[i], w[i + 1])
+    val = ol.at(r, wc[:, None])[:, 0]
+    ph = np.degrees(np.angle(val))
+    pm = np.mod(ph + 360.0, 360.0) - 180.0
+    pm = np.where(pm == -180.0, 180.0, pm)
+    dm = np.radians(np.mod(pm, 360.0)) / wc
+    best_pm, best_wc, min_dm = inf.copy(), nan.copy(), inf.copy()
+    order = np.argsort(-np.abs(pm))  # smallest |PM| written last wins
+    best_pm[r[order]] = pm[order]
+    best_wc[r[order]] = wc[order]
+    np.minimum.at(min_dm, r, dm)
+    # phase crossovers (only where |L| >= 0.01 with a dead time, as in loop_margins)
+    im = lw.imag.copy()
+    if np.any(ol.delay > 0):
+        big = mag >= 0.01
+        last = np.where(big.any(axis=1), big.shape[1] - 1 - np.argmax(big[:, ::-1], axis=1), 0)
+        cut = np.arange(len(w))[None, :] > (last + 1)[:, None]
+        im[cut & (ol.delay[:, None] > 0)] = 1.0
+    r2, i2 = _sign_change_pairs(im)
+    keep = (lw.real[r2, i2] < 0) | (lw.real[r2, i2 + 1] < 0)
+    r2, i2 = r2[keep], i2[keep]
+
+    def imag_norm(rr: np.ndarray, ww: np.ndarray) -> np.ndarray:
+        v = ol.at(rr, ww[:, None])[:, 0]
+        return v.imag / np.maximum(np.abs(v), 1e-300)
+
+    w180 = _bisect(imag_norm, r2, w[i2], w[i2 + 1])
+    v180 = ol.at(r2, w180[:, None])[:, 0]
+    ok = v180.real < 0
+    r2, w180, gm = r2[ok], w180[ok], 1.0 / np.abs(v180[ok])
+    best_gm, best_w180 = inf.copy(), nan.copy()
+    order = np.argsort(-np.abs(np.log(gm)))
+    best_gm[r2[order]] = gm[order]
+    best_w180[r2[order]] = w180[order]
+    # peaks of |S| and |T|
+    s_abs = 1.0 / np.abs(1.0 + lw)
+    t_abs = mag * s_abs
+    ms = _refined_peak(ol, w, s_abs, lambda v: 1.0 / np.abs(1.0 + v))
+    mt = _refined_peak(ol, w, t_abs, lambda v: np.abs(v) / np.abs(1.0 + v))
+    t0, s0 = _dc_t(ol)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ms = np.maximum.reduce([ms, s0, 1.0 / np.abs(1.0 + ol.d)])
+        mt = np.maximum.reduce([mt, t0, np.abs(ol.d / (1.0 + ol.d))])
+    bw = _bandwidths(ol, w, t_abs, t0)
+    n_rhp = _unstable(ol, w, lw)
+    stable = n_rhp == 0
+    min_dm = np.where(stable, min_dm, 0.0)
+    with np.errstate(divide="ignore"):
+        gm_db = 20 * np.log10(best_gm)
+    return {
+        "gain_margin": best_gm,
+        "gain_margin_db": gm_db,
+        "phase_margin": best_pm,
+        "gain_crossover": best_wc,
+        "phase_crossover": best_w180,
+        "delay_margin": min_dm,
+        "ms": ms,
+        "mt": mt,
+        "bandwidth": bw,
+        "stable": stable,
+        "unstable_poles": n_rhp,
+    }
+
+
+def _refined_peak(ol: _OpenLoops, w: np.ndarray, vals: np.ndarray, fun: Any) -> np.ndarray:
+    N = vals.shape[0]
+    i = np.argmax(vals, axis=1)
+    rows = np.arange(N)
+    out = vals[rows, i].copy()
+    inner = (i > 0) & (i < len(w) - 1)
+    rr = rows[inner]
+    if len(rr):
+        best, _ = _golden_max(lambda r, x: fun(ol.at(r, x[:, None])[:, 0]), rr, w[i[inner] - 1], w[i[inner] + 1])
+        out[rr] = np.maximum(best, out[rr])
+    return out
+
+
+def _dc_t(ol: _OpenLoops) -> tuple[np.ndarray, np.ndarray]:
+    """(|T(0)|, |S(0)|): (1, 0) with an integrator in L, else from L(0)."""
+    scale = np.maximum(1.0, np.max(np.abs(ol.poles), axis=1))
+    integ = np.sum(np.abs(ol.poles) < 1e-12 * scale[:, None], axis=1) > 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        l0 = ol.num[:, -1] / ol.den[:, -1]
+        return np.where(integ, 1.0, np.abs(l0 / (1.0 + l0))), np.where(integ, 0.0, np.abs(1.0 / (1.0 + l0)))
+
+
+def _bandwidths(ol: _OpenLoops, w: np.ndarray, t_abs: np.ndarray, ref: np.ndarray) -> np.ndarray:
+    N = t_abs.shape[0]
+    level = ref / math.sqrt(2.0)
+    below = t_abs < level[:, None]
+    first = np.argmax(below, axis=1)
+    ok = below.any(axis=1) & (first > 0) & np.isfinite(ref) & (ref > 0)
+    out = np.full(N, np.nan)
+    rows = np.nonzero(ok)[0]
+    if len(rows):
+        j = first[rows]
+
+        def f(rr: np.ndarray, ww: np.ndarray) -> np.ndarray:
+            v = ol.at(rr, ww[:, None])[:, 0]
+            return np.log(np.abs(v) / np.abs(1.0 + v)) - np.log(level[rr])
+
+        out[rows] = _bisect(f, rows, w[j - 1], w[j])
+    return out
+
+
+def _unstable(ol: _OpenLoops, w: np.ndarray, lw: np.ndarray) -> np.ndarray:
+    """Closed-loop right-half-plane poles: eigenvalues without dead time, Nyquist count with it."""
+    N = len(ol.delay)
+    out = np.zeros(N, int)
+    free = ol.delay == 0
+    if np.any(free):
+        f = np.nonzero(free)[0]
+        acl = ol.A[f] - ol.B[f] @ ol.C[f] / (1.0 + ol.d[f])[:, None, None]
+        cl = np.linalg.eigvals(acl)
+        scale = np.maximum(1.0, np.max(np.abs(cl), axis=1))
+        out[f] = np.sum(cl.real > 1e-9 * scale[:, None], axis=1)
+    if np.any(~free):
+        if np.any(np.abs(ol.d[~free]) >= 0.5):
+            raise ParameterError("`controller`: loops with dead time need |D| < 0.5 of the open loop (retarded type)")
+        dl = np.nonzero(~free)[0]
+        p = ol.poles[dl]
+        n = p.shape[1]
+        arg_d = np.sum(math.pi / 2.0 - np.angle(1j * w[0] - p), axis=1)
+        ph = np.unwrap(np.angle(1.0 + lw[dl]), axis=1)
+        tail = np.angle((1.0 + ol.d[dl]) / (1.0 + lw[dl, -1]))
+        total = arg_d + ph[:, -1] - ph[:, 0] + tail
+        out[dl] = np.maximum(0, np.round((n - 2.0 * total / math.pi) / 2.0)).astype(int)
+    return out
+
+
+def _batch_grid(ol: _OpenLoops) -> np.ndarray:
+    """One log grid covering every variant's corners (as margin_grid), refined linearly for dead time."""
+    mags = np.abs(ol.poles)
+    nz = mags[mags > 1e-12 * max(1.0, float(np.max(mags, initial=0.0)))]
+    corners = list(nz) + list(1.0 / ol.delay[ol.delay > 0])
+    zmag = np.abs(np.concatenate([np.roots(c) for c in _unique_nums(ol.num)])) if ol.num.shape[1] > 1 else np.zeros(0)
+    corners += list(zmag[zmag > 0])
+    if not corners:
+        corners = [1.0]
+    lo, hi = math.log10(min(corners)) - 4.0, math.log10(max(corners)) + 3.0
+    w = np.logspace(lo, hi, int((hi - lo) * _PER_DECADE) + 1)
+    if np.any(ol.delay > 0):
+        lw = ol.at(np.arange(len(ol.delay)), np.broadcast_to(w, (len(ol.delay), len(w))))
+        big = np.nonzero(np.any(np.abs(lw) >= 0.01, axis=0))[0]
+        if len(big):
+            w_cut = w[min(big[-1] + 1, len(w) - 1)]
+            step = math.pi / (8.0 * float(np.max(ol.delay)))
+            count = int(min(w_cut / step, 20000))
+            if count >= 2:
+                w = np.union1d(w, np.linspace(step, w_cut, count))
+    return w
+
+
+def _unique_nums(num: np.ndarray) -> list[np.ndarray]:
+    """A few numerators (first, last, middle) to place the grid around the zeros."""
+    picks = {0, len(num) - 1, len(num) // 2}
+    out = []
+    for i in sorted(picks):
+        c = np.trim_zeros(np.where(np.abs(num[i]) > 1e-12 * np.max(np.abs(num[i])), num[i], 0.0), "f")
+        if len(c) > 1:
+            out.append(c)
+    return out or [np.array([1.0])]
+
+
+def batch_loop_margins(plant: Any, controller: Any) -> BatchMargins:
+    """Margins, Ms, Mt, bandwidth and stability of N loops at once.
+
+    Parameters
+    ----------
+    plant : ModelBatch
+        The plant variants (dead time in ``delay``).
+    controller : LinearModel, ModelBatch or object with ``to_linear()``
+        One controller for all, or one per variant.
+
+    Returns
+    -------
+    BatchMargins
+
+    Notes
+    -----
+    Same definitions as :func:`drivekit.margins.loop_margins`. The open loop
+    is evaluated from its characteristic polynomials (numerator by the
+    matrix determinant lemma, det(sI - A + BC) - det(sI - A)); crossings are
+    refined by 60 bisection steps on log w, peaks by golden-section search.
+    """
+    p, c = _pair(plant, controller)
+    parts = []
+    for start in range(0, len(p), _CHUNK):
+        sl = slice(start, start + _CHUNK)
+        A, B, C, D = loop_matrices(p.subset(sl), c.subset(sl))
+        # open loop from e to y0: input column 0, output row 0
+        ol = _OpenLoops(A, B[:, :, :1], C[:, :1, :], D[:, :1, :1], p.delay[sl])
+        parts.append(_chunk_margins(ol, _batch_grid(ol)))
+    return BatchMargins(**{k: np.concatenate([pt[k] for pt in parts]) for k in parts[0]})
+
+
+# ---------------------------------------------------------------------------------------
+# step metrics
+@dataclasses.dataclass(frozen=True, eq=False)
+class BatchStepMetrics:
+    """Setpoint-step metrics of N loops; arrays of length N (units as in drivekit.margins.StepMetrics)."""
+
+    rise_time: np.ndarray
+    settling_time: np.ndarray
+    overshoot: np.ndarray
+    undershoot: np.ndarray
+    peak: np.ndarray
+    peak_time: np.ndarray
+    final_value: np.ndarray
+    steady_state_error: np.ndarray
+    iae: np.ndarray
+    itae: np.ndarray
+
+    def to_frame(self) -> Any:
+        """One row per variant (pandas DataFrame)."""
+        import pandas as pd
+
+        return pd.DataFrame({f.name: getattr(self, f.name) for f in dataclasses.fields(self)})
+
+
+def _spans(A: np.ndarray, B: np.ndarray, C: np.ndarray, D: np.ndarray, delay: np.ndarray) -> np.ndarray:
+    """The automatic time span of drivekit.responses for each loop (Pade(2) poles for dead time)."""
+    N, nz = A.shape[0], A.shape[1]
+    span = np.empty(N)
+    free = delay == 0
+    g = 1.0 / (1.0 + D[:, 0, 0])
+    if np.any(free):
+        f = np.nonzero(free)[0]
+        acl = A[f] - g[f, None, None] * B[f][:, :, :1] @ C[f][:, :1, :]
+        span[f] = _decay_spans(np.linalg.eigvals(acl), np.zeros(len(f)))
+    if np.any(~free):
+        dl = np.nonzero(~free)[0]
+        th = delay[dl]
+        # second-order Pade e^{-th s} ~ (s^2 - 6/th s + 12/th^2)/(s^2 + 6/th s + 12/th^2), controllable form
+        # (the same filter as drivekit.responses.pade_coefficients(th, 2))
+        Ap = np.zeros((len(dl), 2, 2))
+        Ap[:, 0, 0], Ap[:, 0, 1], Ap[:, 1, 0] = -6.0 / th, -12.0 / th**2, 1.0
+        Cp = np.stack([-12.0 / th, np.zeros_like(th)], axis=1)
+        be, c0, d00 = B[dl, :, 0], C[dl, 0, :], D[dl, 0, 0]
+        gg = 1.0 / (1.0 + d00)
+        big = np.zeros((len(dl), nz + 2, nz + 2))
+        big[:, :nz, :nz] = A[dl] - gg[:, None, None] * be[:, :, None] * c0[:, None, :]
+        big[:, :nz, nz:] = -gg[:, None, None] * be[:, :, None] * Cp[:, None, :]
+        big[:, nz, :nz] = c0 * gg[:, None]
+        big[:, nz:, nz:] = Ap
+        big[:, nz, nz:] -= (gg * d00)[:, None] * Cp
+        span[dl] = _decay_spans(np.linalg.eigvals(big), delay[dl])
+    return span
+
+
+def _decay_spans(p: np.ndarray, delay: np.ndarray) -> np.ndarray:
+    scale = np.maximum(1.0, np.max(np.abs(p), axis=1))
+    moving = np.abs(p) > 1e-9 * scale[:, None]
+    rates = np.where(moving, np.abs(p.real), np.inf)
+    decaying = moving & (rates > 1e-9 * scale[:, None])
+    slow = np.min(np.where(decaying, rates, np.inf), axis=1)
+    fast = np.max(np.where(moving, np.abs(p), 0.0), axis=1)
+    out = delay + _LN_SETTLE / slow
+    osc = ~np.isfinite(slow) & (fast > 0)
+    out = np.where(osc, delay + 20.0 * math.pi / np.where(fast > 0, fast, 1.0), out)
+    none = ~np.isfinite(slow) & ~(fast > 0)
+    return np.where(none, np.maximum(10.0 * delay, 1.0), out)
+
+
+def batch_step_metrics(
+    plant: Any,
+    controller: Any,
+    points: int = 500,
+    settling_threshold: float = 0.02,
+    rise_limits: tuple[float, float] = (0.1, 0.9),
+) -> BatchStepMetrics:
+    """Setpoint unit-step metrics of N loops at once (automatic time span per variant).
+
+    Parameters
+    ----------
+    plant : ModelBatch
+        Plant variants.
+    controller : LinearModel, ModelBatch or object with ``to_linear()``
+        One controller for all, or one per variant.
+    points : int
+        Time points per response. [-]
+    settling_threshold : float
+        Settling band relative to the final value. [-]
+    rise_limits : tuple of float
+        Fractions of the final value for the rise time. [-]
+
+    Returns
+    -------
+    BatchStepMetrics
+    """
+    p, c = _pair(plant, controller)
+    parts = []
+    for start in range(0, len(p), _CHUNK):
+        sl = slice(start, start + _CHUNK)
+        A, B, C, D = loop_matrices(p.subset(sl), c.subset(sl))
+        delay = p.delay[sl]
+        t, y, final = _simulate(A, B, C, D, delay, points)
+        ol = _OpenLoops(A, B[:, :, :1], C[:, :1, :], D[:, :1, :1], delay)
+        w = _batch_grid(ol)
+        lw = ol.at(np.arange(len(delay)), np.broadcast_to(w, (len(delay), len(w))))
+        final = np.where(_unstable(ol, w, lw) == 0, final, np.nan)
+        parts.append(step_metric_arrays(t, y, final, np.ones(len(delay)), settling_threshold, rise_limits))
+    return BatchStepMetrics(**{k: np.concatenate([pt[k] for pt in parts]) for k in parts[0]})
+
+
+def _simulate(A: np.ndarray, B: np.ndarray, C: np.ndarray, D: np.ndarray, delay: np.ndarray, points: int) -> tuple:
+    """Setpoint unit step of each loop with the same scheme as drivekit.responses, vectorised over variants."""
+    N, n = A.shape[0], A.shape[1]
+    span = _spans(A, B, C, D, delay)
+    h = span / (points - 1)
+    ms = np.where(delay > 0, np.round(delay / h), 0).astype(int)
+    h = np.where(ms >= 1, delay / np.maximum(ms, 1), h)
+    f = np.where((delay > 0) & (ms == 0), delay / h, 0.0)
+    t = h[:, None] * np.arange(points)[None, :]
+    g = 1.0 / (1.0 + D[:, 0, 0])
+    be, bd = B[:, :, 0], B[:, :, 1]
+    c0 = C[:, 0, :]
+    d00 = D[:, 0, 0]
+    # steady state of the delay-free loop (the same with dead time)
+    acl = A - g[:, None, None] * be[:, :, None] * c0[:, None, :]
+    bin_ = be * g[:, None]
+    with np.errstate(all="ignore"):
+        zss = -np.linalg.solve(acl, bin_[:, :, None])[:, :, 0]
+        e_ss = g * (1.0 - np.einsum("ni,ni->n", c0, zss))
+        final = np.einsum("ni,ni->n", c0, zss) + d00 * e_ss
+    # discretisation: ramp in e, constant d (d = 0 here)
+    M = np.zeros((N, n + 3, n + 3))
+    M[:, :n, :n] = A
+    M[:, :n, n] = be
+    M[:, :n, n + 1] = bd
+    M[:, n, n + 2] = 1.0
+    E = scipy.linalg.expm(M * h[:, None, None])
+    Phi = E[:, :n, :n]
+    g1 = E[:, :n, n + 2] / h[:, None]
+    Ga, Gb = E[:, :n, n] - g1, g1
+    # delay-free variants: exact closed-loop ZOH
+    free = delay == 0
+    if np.any(free):
+        Mf = np.zeros((N, n + 1, n + 1))
+        Mf[:, :n, :n] = acl
+        Mf[:, :n, n] = bin_
+        Ef = scipy.linalg.expm(Mf * h[:, None, None])
+        Phi = np.where(free[:, None, None], Ef[:, :n, :n], Phi)
+        gam_free = Ef[:, :n, n]
+    y = np.zeros((N, points))
+    y0 = np.zeros((N, points))
+    z = np.zeros((N, n))
+    rows = np.arange(N)
+    beta = np.einsum("ni,ni->n", c0, Gb) + d00
+    v_now = np.zeros(N)
+    for k in range(points):
+        if np.any(free):
+            ef = g * (1.0 - np.einsum("ni,ni->n", c0, z))
+            yf = np.einsum("ni,ni->n", c0, z) + d00 * ef
+        idx = k - ms
+        v_exp = np.where(idx >= 0, y0[rows, np.maximum(idx, 0)], 0.0)
+        v_k = np.where(ms >= 1, v_exp, v_now)
+        e = 1.0 - v_k
+        y0[:, k] = np.einsum("ni,ni->n", c0, z) + d00 * e
+        y[:, k] = np.where(free, yf, v_k) if np.any(free) else v_k
+        free_next = np.einsum("nij,nj->ni", Phi, z) + Ga * e[:, None]
+        idx1 = k + 1 - ms
+        v1_exp = np.where(idx1 >= 0, y0[rows, np.clip(idx1, 0, points - 1)], 0.0)
+        alpha = np.einsum("ni,ni->n", c0, free_next + Gb) + d00
+        v1_imp = ((1.0 - f) * alpha + f * y0[:, k]) / (1.0 + (1.0 - f) * beta)
+        v_next = np.where(ms >= 1, v1_exp, v1_imp)
+        z_new = free_next + Gb * (1.0 - v_next)[:, None]
+        if np.any(free):
+            z_new = np.where(free[:, None], np.einsum("nij,nj->ni", Phi, z) + gam_free, z_new)
+        z = z_new
+        v_now = v_next
+    return t, y, final
