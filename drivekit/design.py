@@ -196,15 +196,25 @@ class Design:
                 yield DesignParameter(
                     f"{role}.{name}", role, name, getattr(stage, "name", role), spec, getattr(stage, name)
                 )
-        if self.controller is not None and dataclasses.is_dataclass(self.controller):
-            for name, spec in parameter_specs(self.controller):
-                yield DesignParameter(
-                    f"controller.{name}", "controller", name, "controller", spec, getattr(self.controller, name)
-                )
+        if self.controller is not None:
+            for name, spec in self.controller_specs().items():
+                if hasattr(self.controller, name):
+                    value = getattr(self.controller, name)
+                    yield DesignParameter(f"controller.{name}", "controller", name, "controller", spec, value)
         kind, value = self.operating
         yield DesignParameter(
             f"operating.{kind}", "operating", kind, "operating point", self._operating_spec(kind), value
         )
+
+    def controller_specs(self) -> dict[str, ParamSpec]:
+        """Units of the controller's settings: kp in input unit per SI unit of the measured value, ti and td in s."""
+        out_unit = OUTPUTS[self.train.output][0]
+        in_unit = "percent" if self.train.input_unit == "%" else self.train.input_unit
+        return {
+            "kp": ParamSpec(f"{in_unit}/({out_unit})", "controller gain", minimum=0.0, include_minimum=False),
+            "ti": ParamSpec("s", "reset (integral) time", minimum=0.0, include_minimum=False),
+            "td": ParamSpec("s", "derivative time", minimum=0.0),
+        }
 
     def value(self, key: str) -> Any:
         """Current SI value of the parameter ``key``."""
@@ -241,6 +251,9 @@ class Design:
         if role == "controller":
             if self.controller is None:
                 raise ParameterError(f"`key`: got {key!r}, but the design has no controller")
+            specs = self.controller_specs()
+            if name in specs:
+                value = to_si(value, key, specs[name])
             return dataclasses.replace(self, controller=_replace_field(self.controller, name, value, key))
         if role == "targets":
             return dataclasses.replace(self, targets=_replace_field(self.targets, name, value, key))
