@@ -185,12 +185,26 @@ def _poly_from_roots(r: np.ndarray) -> np.ndarray:
     return c.real
 
 
-def _horner(c: np.ndarray, s: np.ndarray) -> np.ndarray:
-    """Evaluate rows of coefficients c (N, k) at s (N, W)."""
-    out = np.broadcast_to(c[:, :1], s.shape).astype(complex)
-    for j in range(1, c.shape[1]):
-        out = out * s + c[:, j : j + 1]
-    return out
+def _horner_iw(c: np.ndarray, w: np.ndarray) -> np.ndarray:
+    """Rows of real coefficients c (N, k), highest power first, at s = jw (w shape (N, W)).
+
+    Even and odd powers are summed separately in real arithmetic in w**2:
+    p(jw) = E(-w**2) + jw O(-w**2).
+    """
+    k = c.shape[1]
+    x = -(w * w)
+    powers = np.arange(k - 1, -1, -1)
+    even, odd = c[:, powers % 2 == 0], c[:, powers % 2 == 1]
+    re = np.broadcast_to(even[:, :1], w.shape).copy() if even.shape[1] else np.zeros(w.shape)
+    for j in range(1, even.shape[1]):
+        re = re * x + even[:, j : j + 1]
+    im = np.zeros(w.shape)
+    if odd.shape[1]:
+        im = np.broadcast_to(odd[:, :1], w.shape).copy()
+        for j in range(1, odd.shape[1]):
+            im = im * x + odd[:, j : j + 1]
+        im = im * w
+    return re + 1j * im
 
 
 class _OpenLoops:
@@ -207,8 +221,9 @@ class _OpenLoops:
         self.A, self.B, self.C = A, B, C
 
     def at(self, rows: np.ndarray, w: np.ndarray) -> np.ndarray:
-        s = 1j * w
-        return _horner(self.num[rows], s) / _horner(self.den[rows], s) * np.exp(-s * self.delay[rows][:, None])
+        return (
+            _horner_iw(self.num[rows], w) / _horner_iw(self.den[rows], w) * np.exp(-1j * w * self.delay[rows][:, None])
+        )
 
 
 def _bisect(f: Any, rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -404,10 +419,11 @@ def _batch_grid(ol: _OpenLoops) -> np.ndarray:
     lo, hi = math.log10(min(corners)) - 4.0, math.log10(max(corners)) + 3.0
     w = np.logspace(lo, hi, int((hi - lo) * _PER_DECADE) + 1)
     if np.any(ol.delay > 0):
-        lw = ol.at(np.arange(len(ol.delay)), np.broadcast_to(w, (len(ol.delay), len(w))))
+        coarse = w[:: _PER_DECADE // 10]
+        lw = ol.at(np.arange(len(ol.delay)), np.broadcast_to(coarse, (len(ol.delay), len(coarse))))
         big = np.nonzero(np.any(np.abs(lw) >= 0.01, axis=0))[0]
         if len(big):
-            w_cut = w[min(big[-1] + 1, len(w) - 1)]
+            w_cut = coarse[min(big[-1] + 1, len(coarse) - 1)]
             step = math.pi / (8.0 * float(np.max(ol.delay)))
             count = int(min(w_cut / step, 20000))
             if count >= 2:
@@ -532,6 +548,7 @@ def batch_step_metrics(
     points: int = 500,
     settling_threshold: float = 0.02,
     rise_limits: tuple[float, float] = (0.1, 0.9),
+    stable: Any = None,
 ) -> BatchStepMetrics:
     """Setpoint unit-step metrics of N loops at once (automatic time span per variant).
 
@@ -547,6 +564,9 @@ def batch_step_metrics(
         Settling band relative to the final value. [-]
     rise_limits : tuple of float
         Fractions of the final value for the rise time. [-]
+    stable : numpy.ndarray of bool, optional
+        Closed-loop stability of each variant when already known (e.g.
+        ``batch_loop_margins(...).stable``); computed when omitted.
 
     Returns
     -------
@@ -559,10 +579,14 @@ def batch_step_metrics(
         A, B, C, D = loop_matrices(p.subset(sl), c.subset(sl))
         delay = p.delay[sl]
         t, y, final = _simulate(A, B, C, D, delay, points)
-        ol = _OpenLoops(A, B[:, :, :1], C[:, :1, :], D[:, :1, :1], delay)
-        w = _batch_grid(ol)
-        lw = ol.at(np.arange(len(delay)), np.broadcast_to(w, (len(delay), len(w))))
-        final = np.where(_unstable(ol, w, lw) == 0, final, np.nan)
+        if stable is None:
+            ol = _OpenLoops(A, B[:, :, :1], C[:, :1, :], D[:, :1, :1], delay)
+            w = _batch_grid(ol)
+            lw = ol.at(np.arange(len(delay)), np.broadcast_to(w, (len(delay), len(w))))
+            ok = _unstable(ol, w, lw) == 0
+        else:
+            ok = np.asarray(stable, dtype=bool)[sl]
+        final = np.where(ok, final, np.nan)
         parts.append(step_metric_arrays(t, y, final, np.ones(len(delay)), settling_threshold, rise_limits))
     return BatchStepMetrics(**{k: np.concatenate([pt[k] for pt in parts]) for k in parts[0]})
 
