@@ -4,16 +4,17 @@ The core (this package) is plain computation with SI floats inside and units
 at the boundary; :mod:`drivekit.widgets` draws it in Jupyter.
 """
 
-from . import demo, identify, simulate, slurry, surge, tuning, units
+from . import demo, identify, simulate, slurry, surge, sweep, tuning, units
+from .batch import BatchMargins, BatchStepMetrics, ModelBatch, batch_loop_margins, batch_step_metrics
 from .design import Design, DesignInfo, Targets
 from .drives import VariableSpeedDrive
 from .drivetrain import DriveTrain
 from .evaluation import DesignResult, TargetCheck
 from .fluid import Fluid
 from .linear import FactoredForm, LinearModel, Mode, ModelComparison
-from .loop import Loop
+from .loop import Loop, as_linear
 from .machines import Conveyor, Fan
-from .margins import LoadMetrics, Margins, StepMetrics, load_metrics, loop_margins, step_metrics
+from .margins import Crossing, LoadMetrics, Margins, StepMetrics, load_metrics, loop_margins, step_metrics
 from .models import FOPDT, SOPDT, IntegratingDeadTime, half_rule
 from .motors import DCMotor, InductionMotor
 from .operating import OperatingPoint, OperatingPointError
@@ -28,6 +29,7 @@ from .responses import (
     load_response,
     step_response,
 )
+from .rootlocus import RootLocus, root_locus
 from .sensors import FlowMeter, PressureSensor, SpeedSensor
 from .transmissions import Transmission
 from .units import Q_, ParameterError, ureg
@@ -40,8 +42,11 @@ __all__ = [
     "PID",
     "Q_",
     "SOPDT",
+    "BatchMargins",
+    "BatchStepMetrics",
     "CentrifugalPump",
     "Conveyor",
+    "Crossing",
     "DCMotor",
     "Design",
     "DesignInfo",
@@ -60,6 +65,7 @@ __all__ = [
     "Loop",
     "Margins",
     "Mode",
+    "ModelBatch",
     "ModelComparison",
     "OperatingPoint",
     "OperatingPointError",
@@ -68,6 +74,7 @@ __all__ = [
     "PlantSettings",
     "PressureSensor",
     "PumpCurve",
+    "RootLocus",
     "SpeedSensor",
     "StepMetrics",
     "StepResponse",
@@ -76,6 +83,9 @@ __all__ = [
     "Transmission",
     "VariableSpeedDrive",
     "VariantSet",
+    "as_linear",
+    "batch_loop_margins",
+    "batch_step_metrics",
     "demo",
     "frequency_response",
     "half_rule",
@@ -85,11 +95,13 @@ __all__ = [
     "load_response",
     "loop_margins",
     "make_variants",
+    "root_locus",
     "simulate",
     "slurry",
     "step_metrics",
     "step_response",
     "surge",
+    "sweep",
     "tuning",
     "units",
     "ureg",
