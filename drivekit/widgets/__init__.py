@@ -12,7 +12,7 @@ with warnings.catch_warnings():
     import bqplot  # noqa: F401
 
 from .boards import LoopDesignBoard, ModelExplorationBoard
-from .compute import BoardResult, LoopData, OperatingCurves, compute_result, loop_data, operating_curves
+from .compute import BoardResult, OperatingCurves, compute_result, operating_curves
 from .loop_views import BodeView, NyquistView, PoleZeroView, RootLocusView, SensitivityView, StepView
 from .metrics import MetricRow, MetricsTable, metric_rows
 from .model import Coalescer, DesignModel
@@ -24,7 +24,6 @@ __all__ = [
     "BodeView",
     "Coalescer",
     "DesignModel",
-    "LoopData",
     "LoopDesignBoard",
     "MetricRow",
     "MetricsTable",
@@ -39,7 +38,6 @@ __all__ = [
     "SensitivityView",
     "StepView",
     "compute_result",
-    "loop_data",
     "metric_rows",
     "operating_curves",
 ]

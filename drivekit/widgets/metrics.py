@@ -40,53 +40,62 @@ class MetricRow:
     met: bool | None = None
 
 
-def _check(value: float, limit: float | None, at_least: bool) -> tuple[str, bool | None]:
-    if limit is None or not math.isfinite(limit):
+def _target(check: Any) -> tuple[str, bool | None]:
+    """The core's target check in words and its verdict; none without a check."""
+    if check is None:
         return "", None
-    if not math.isfinite(value):
-        ok = at_least and value > 0  # an infinite margin meets a least-margin target
-        return (">= " if at_least else "<= ") + f"{limit:.3g}", ok
-    return (">= " if at_least else "<= ") + f"{limit:.3g}", (value >= limit) if at_least else (value <= limit)
+    return f"{check.kind} {check.limit:.3g}", bool(check.met)
 
 
 def metric_rows(result: Any) -> list[MetricRow]:
-    """The rows of the metrics table for one result, each checked against the design's targets.
+    """The rows of the metrics table for one result, with the core's target checks.
 
     Parameters
     ----------
     result : BoardResult
-        The computed result.
+        The computed result (its ``evaluation`` holds margins, step and load
+        metrics and the target checks).
 
     Returns
     -------
     list of MetricRow
+        Empty without a controller. Step and load metrics are NaN for an
+        unstable loop (the core gives none).
     """
-    loop = result.loop
-    if loop is None:
+    ev = result.evaluation
+    m = ev.margins
+    if m is None:
         return []
-    tg = result.design.targets
+    checks = {c.name: c for c in ev.checks}
+    step, load = ev.step, ev.load
+    nan = math.nan
+    plant = ev.plant
+    per_load = f"{plant.output_display_unit.replace('**3', '³')} per {plant.input_unit}"
     rows = []
-    for name, value, unit, limit, at_least in (
-        ("phase margin", loop.phase_margin, "deg", tg.phase_margin, True),
-        ("gain margin", loop.gain_margin, "-", tg.gain_margin, True),
-        ("peak sensitivity Ms", loop.ms, "-", tg.max_ms, False),
-        ("peak complementary sensitivity Mt", loop.mt, "-", None, False),
-        ("gain crossover", loop.gain_crossover, "rad/s", None, False),
-        ("rise time 10-90 %", loop.rise_time, "s", None, False),
-        ("settling time 2 %", loop.settling_time, "s", tg.settling_time, False),
-        ("overshoot", loop.overshoot, "%", tg.overshoot, False),
+    for name, value, unit, check in (
+        ("phase margin", m.phase_margin, "deg", "phase margin"),
+        ("gain margin", m.gain_margin, "-", "gain margin"),
+        ("peak sensitivity Ms", m.ms, "-", "Ms"),
+        ("peak complementary sensitivity Mt", m.mt, "-", None),
+        ("gain crossover", m.gain_crossover, "rad/s", None),
+        ("delay margin", m.delay_margin, "s", None),
+        ("bandwidth (-3 dB of T)", m.bandwidth, "rad/s", None),
+        ("rise time 10-90 %", step.rise_time if step else nan, "s", None),
+        ("settling time 2 %", step.settling_time if step else nan, "s", "settling time"),
+        ("overshoot", step.overshoot if step else nan, "%", "overshoot"),
+        ("load step: peak deviation", load.peak_deviation * plant.display_scale if load else nan, per_load, None),
+        ("load step: recovery time", load.recovery_time if load else nan, "s", None),
     ):
-        target, met = _check(value, limit, at_least)
-        rows.append(MetricRow(name, value, unit, target, met))
+        target, met = _target(checks.get(check) if check else None)
+        rows.append(MetricRow(name, float(value), unit, target, met))
     return rows
 
 
-def _settings_rows(design: Any) -> list[tuple[str, str, str]]:
-    c = design.controller
-    if c is None or design.measurement_span is None or not hasattr(c, "settings"):
+def _settings_rows(result: Any) -> list[tuple[str, str, str]]:
+    settings = result.evaluation.settings
+    if settings is None:
         return []
-    span = design.output_span or (0.0, 100.0)
-    return list(c.settings(measurement_span=design.measurement_span, output_span=span).table())
+    return [tuple(str(x) for x in row)[:3] for row in settings.table()]  # type: ignore[misc]
 
 
 class MetricsTable(View):
@@ -132,9 +141,10 @@ class MetricsTable(View):
             settings = "".join(
                 f"<tr><td>{html.escape(a)}</td><td style='text-align:right'>{html.escape(str(b))}</td>"
                 f"<td>{html.escape(str(c))}</td><td></td><td></td></tr>"
-                for a, b, c in _settings_rows(result.design)
+                for a, b, c in _settings_rows(result)
             )
             head = "<tr><th>quantity</th><th>value</th><th>unit</th><th>target</th><th></th></tr>"
             self.table.value = f"<table class='dk-table'>{head}{''.join(body)}{settings}</table>"
+        self.say(result.evaluation.margins.verdict if result.evaluation.margins is not None else "")
         cautions = "".join(f"<li>{html.escape(c)}</li>" for c in result.cautions)
         self.cautions.value = f"<b>Cautions</b><ul>{cautions}</ul>" if cautions else ""

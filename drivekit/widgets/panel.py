@@ -16,8 +16,8 @@ from typing import Any
 
 import ipywidgets as w
 
-from ..design import Design, DesignParameter
-from ..units import ParameterError, ParamSpec
+from ..design import DesignParameter
+from ..units import ParameterError
 from .model import DesignModel, design_value
 from .units_display import DisplayUnit, display_units, slider_range
 
@@ -263,26 +263,6 @@ class ParameterRow(w.VBox):
                 widget.disabled = locked
 
 
-#: Controller settings shown when the controller does not declare its own parameter specs.
-_CONTROLLER_SPECS = {
-    "kp": ParamSpec("", "controller gain (output unit per SI measurement unit)", minimum=0.0, include_minimum=False),
-    "ti": ParamSpec("s", "reset (integral) time", minimum=0.0, include_minimum=False),
-    "td": ParamSpec("s", "derivative time", minimum=0.0),
-}
-
-
-def _editable(design: Design) -> list[DesignParameter]:
-    params = list(design.parameters())
-    keys = {p.key for p in params}
-    c = design.controller
-    extra = [
-        DesignParameter(f"controller.{name}", "controller", name, "controller", spec, getattr(c, name))
-        for name, spec in _CONTROLLER_SPECS.items()
-        if c is not None and hasattr(c, name) and f"controller.{name}" not in keys
-    ]
-    return params[:-1] + extra + params[-1:] if extra else params
-
-
 class ParameterPanel(w.VBox):
     """Every editable number of a design, grouped by stage, with a record button.
 
@@ -317,7 +297,7 @@ class ParameterPanel(w.VBox):
         is_pump = model.design.train.is_pump
         grouped: dict[str, list[ParameterRow]] = {}
         self.rows: dict[str, ParameterRow] = {}
-        for p in _editable(model.design):
+        for p in model.design.parameters():
             group = group_of(p, is_pump)
             if groups is not None and group not in groups:
                 continue

@@ -81,6 +81,8 @@ def display_units(p: DesignParameter) -> tuple[DisplayUnit, ...]:
     tuple of DisplayUnit
     """
     si = p.spec.unit
+    if p.key == "controller.kp" and "/(" in si:
+        return _gain_units(si)
     if p.key == "controller.ti":
         return (_pint("s", "s", si), _pint("min/repeat", "min", si))
     if si == "m" and "head" in p.spec.description:
@@ -95,6 +97,15 @@ def display_units(p: DesignParameter) -> tuple[DisplayUnit, ...]:
         return (_pint("-", "", ""),) if si == "" else (_pint("-", si, si),)
     label = f"{ureg.Unit(si):~P}"
     return (_pint(label, si, si),)
+
+
+def _gain_units(si: str) -> tuple[DisplayUnit, ...]:
+    """A controller gain ``"<output unit>/(<measured SI unit>)"`` per each display unit of the measurement."""
+    num, den = si.split("/(", 1)
+    den = den[:-1]
+    top = "%" if num == "percent" else f"{ureg.Unit(num):~P}"
+    choices = _CHOICES.get(den, ((f"{ureg.Unit(den):~P}", den),))
+    return tuple(_pint(f"{top}/({label})", f"{num}/({unit})", si) for label, unit in choices)
 
 
 #: SI units of quantities that commonly span decades; their sliders are logarithmic.

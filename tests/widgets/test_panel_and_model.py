@@ -211,3 +211,24 @@ def test_operating_view_matches_the_core(pump_design):
     assert view.min_flow_line.x[0] == pytest.approx(pump.min_flow(op.machine_speed) * 3600.0, rel=1e-12)
     # The operating point lies on the system curve: pump head = system head at the operating flow.
     assert op.head == pytest.approx(float(design.train.system_curve(op.flow)), rel=1e-6)
+
+
+def test_controller_rows_come_from_the_design_with_their_units(pump_design):
+    from drivekit.pid import PID
+
+    design = pump_design.__class__(
+        train=pump_design.train, operating=pump_design.operating, controller=PID(1080.0, 3.0)
+    )
+    panel = ParameterPanel(DesignModel(design))
+    specs = {p.key: p.spec for p in design.parameters()}
+    for key in ("controller.kp", "controller.ti", "controller.td"):
+        assert panel.rows[key].parameter.spec == specs[key]
+    row = panel.rows["controller.kp"]
+    # Source: 1 h = 3600 s (SI Brochure, 9th ed., Table 8): 0.3 %/(m3/h) = 1080 %/(m3/s).
+    assert row.entry.value == "0.3"
+    assert row.submit("0.45")
+    assert panel.model.design.controller.kp == pytest.approx(0.45 * 3600.0, rel=1e-12)
+    assert row.submit("2000 percent/(m**3/s)")
+    assert panel.model.design.controller.kp == pytest.approx(2000.0, rel=1e-12)
+    assert not row.submit("3 s")
+    assert "refused" in row.message.value
