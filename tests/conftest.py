@@ -15,3 +15,19 @@ def pump_train():
 def conveyor_train():
     """The invented Tallow Hill CV-3 conveyor with a compliant gearbox."""
     return demo.quarry_conveyor()
+
+
+def pytest_collection_modifyitems(config, items):
+    """Run the browser tests last, those under tests/browser at the very end.
+
+    Playwright's sync API keeps an event loop running in the main thread while a
+    browser session is open; tests that use asyncio, and other Playwright sessions,
+    must run before the shared session of tests/browser starts.
+    """
+
+    def order(item):
+        browser = item.get_closest_marker("browser") is not None
+        shared_session = "tests/browser/" in item.nodeid.replace("\\", "/")
+        return (browser or shared_session, shared_session)
+
+    items.sort(key=order)
