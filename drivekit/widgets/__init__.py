@@ -13,17 +13,23 @@ with warnings.catch_warnings():
 
 from .boards import LoopDesignBoard, ModelExplorationBoard
 from .compute import BoardResult, OperatingCurves, compute_result, operating_curves
+from .identify_view import FIT_METHODS, BumpTestView
 from .loop_views import BodeView, NyquistView, PoleZeroView, RootLocusView, SensitivityView, StepView
 from .metrics import MetricRow, MetricsTable, metric_rows
 from .model import Coalescer, DesignModel
 from .operating_view import OperatingPointView
 from .panel import ParameterPanel, ParameterRow
+from .simulation_view import SimulationView
+from .sweep_views import GainScheduleView, SweepView, TornadoView
 
 __all__ = [
+    "FIT_METHODS",
     "BoardResult",
     "BodeView",
+    "BumpTestView",
     "Coalescer",
     "DesignModel",
+    "GainScheduleView",
     "LoopDesignBoard",
     "MetricRow",
     "MetricsTable",
@@ -36,7 +42,10 @@ __all__ = [
     "PoleZeroView",
     "RootLocusView",
     "SensitivityView",
+    "SimulationView",
     "StepView",
+    "SweepView",
+    "TornadoView",
     "compute_result",
     "metric_rows",
     "operating_curves",

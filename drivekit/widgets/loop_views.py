@@ -91,7 +91,8 @@ class StepView(View):
     ----------
     measurement : bqplot.Lines
         Measurement after a setpoint step (row 0) and after a load step (row 1),
-        in the trade's unit (m³/h, rpm); x in s.
+        in the trade's unit (m³/h, rpm); x in s (one row shared by both when
+        the core gives them on the same time grid).
     output : bqplot.Lines
         Controller output for the same two steps (rows 0 and 1), with its
         limits (rows 2 and 3, flat lines; NaN without limits).
@@ -159,7 +160,9 @@ class StepView(View):
         y0 = measured_value(result)
         u0 = ev.operating_point.u_si
         r_step, d_step = step_sizes(result)
-        t = array(np.vstack([sp.t, ld.t]))
+        same_grid = np.array_equal(sp.t, ld.t)
+        # one shared time row when both responses use the same grid (less to send to the page)
+        t = array(sp.t) if same_grid else array(np.vstack([sp.t, ld.t]))
         ys = np.vstack([y0 + r_step * sp.y, y0 + d_step * ld.y]) * scale
         limits = result.design.output_span or getattr(result.design.controller, "output_limits", None)
         lo, hi = limits if limits is not None else (math.nan, math.nan)
@@ -177,7 +180,7 @@ class StepView(View):
             self.settling.x = array([ts, ts])
             self.settling.y = array([y0 * scale, r] if ts else [y0 * scale, y0 * scale])
         with self.output.hold_sync():
-            self.output.x = array(np.vstack([sp.t, ld.t, sp.t, sp.t]))
+            self.output.x = array(sp.t) if same_grid else array(np.vstack([sp.t, ld.t, sp.t, sp.t]))
             self.output.y = array(us)
         unit = plant.output_display_unit.replace("**3", "³")
         self.y_axis.label = f"{plant.output_name} [{unit}]"
@@ -502,8 +505,12 @@ class RootLocusView(View):
         size = np.abs(now.real)
         dominant = size <= 20.0 * max(float(np.min(size)), 1e-12) if now.size else np.zeros(0, bool)
         lim = 1.5 * float(np.max(np.abs(now[dominant]))) if dominant.any() else 1.0
-        for sc in (self.branches.scales["x"], self.branches.scales["y"]):
-            sc.min, sc.max = -lim, lim * (0.5 if sc is self.branches.scales["x"] else 1.0)
+        x_scale, y_scale = self.branches.scales["x"], self.branches.scales["y"]
+        if y_scale.max is None or not 0.8 < lim / y_scale.max < 1.25:  # rescale only on a clear change
+            with x_scale.hold_sync():
+                x_scale.min, x_scale.max = -lim, 0.5 * lim
+            with y_scale.hold_sync():
+                y_scale.min, y_scale.max = -lim, lim
         self.say(f"{rl.note}; click a branch to set the controller gain there")
 
     def set_gain_at(self, index: int) -> None:

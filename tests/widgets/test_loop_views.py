@@ -53,13 +53,21 @@ def _expected_steps(design):
     return ev, y0, r, d
 
 
+def _rows(x):
+    """The time row of each line: one shared row, or one row per line."""
+    x = np.asarray(x)
+    return (x, x) if x.ndim == 1 else tuple(x)
+
+
 def test_step_view_draws_the_core_responses_after_a_gain_change(loop_design):
     board = LoopDesignBoard(loop_design, delay=0.0)
     assert board.panel.rows["controller.kp"].submit(f"{KP * 1.5} percent/(m**3/s)")
     design = loop_design.with_value("controller.kp", KP * 1.5)
     ev, y0, r, d = _expected_steps(design)
     sp, ld = ev.setpoint_step, ev.load_step
-    np.testing.assert_array_equal(board.step.measurement.x[0], sp.t)
+    t_sp, t_ld = _rows(board.step.measurement.x)
+    np.testing.assert_array_equal(t_sp, sp.t)
+    np.testing.assert_array_equal(t_ld, ld.t)
     np.testing.assert_allclose(board.step.measurement.y[0], M3H * (y0 + r * sp.y), rtol=1e-12)
     np.testing.assert_allclose(board.step.measurement.y[1], M3H * (y0 + d * ld.y), rtol=1e-12)
     np.testing.assert_allclose(board.step.output.y[0], ev.operating_point.u_si + r * sp.u, rtol=1e-12)
@@ -79,7 +87,7 @@ def test_step_view_against_python_control_with_a_fine_pade(loop_design):
     # Outside reference: python-control's closed-loop step with a 10th-order Pade for the 0.2 s dead time.
     view = StepView(LoopDesignBoard(loop_design, delay=0.0).model)
     ev, y0, r, _d = _expected_steps(loop_design)
-    t = np.asarray(view.measurement.x[0])
+    t = _rows(view.measurement.x)[0]
     closed = control.feedback(loop_design.controller.tf * ev.plant.pade(10), 1)
     ref = np.asarray(control.step_response(closed, t).outputs).reshape(-1)
     # Pade of order 10 at the loop's bandwidth (about 1 rad/s, theta = 0.2 s) is exact to far below 1e-3.
