@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import dataclasses
 import functools
+import weakref
 from typing import Any
 
 import numpy as np
@@ -26,7 +27,7 @@ import numpy as np
 from .linear import LinearModel
 from .units import ParameterError
 
-__all__ = ["Loop", "as_linear", "feedback", "series"]
+__all__ = ["Loop", "as_linear", "feedback", "series", "zpk"]
 
 
 def as_linear(sys: Any, delay: float = 0.0) -> LinearModel:
@@ -80,6 +81,43 @@ def _check_delay(delay: Any, name: str) -> float:
     if not np.isfinite(value) or value < 0:
         raise ParameterError(f"`{name}`: got {delay!r} s, expected a dead time >= 0 s")
     return value
+
+
+_ZPK_CACHE: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
+def zpk(model: LinearModel) -> tuple[np.ndarray, np.ndarray, float]:
+    """Zeros, poles and gain k of the delay-free part: k prod(s - z)/prod(s - p).
+
+    Computed once per model object and kept while the model lives (a loop's
+    open loop takes its factors from the controller and the plant).
+
+    Parameters
+    ----------
+    model : LinearModel
+        The model.
+
+    Returns
+    -------
+    tuple
+        (zeros [1/s], poles [1/s], gain k [SI]).
+    """
+    hit = _ZPK_CACHE.get(model)
+    if hit is not None:
+        return hit
+    p = np.asarray(model.poles, dtype=complex)
+    z = np.asarray(model.zeros, dtype=complex) if model.order else np.zeros(0, complex)
+    if model.order == 0:
+        k = float(model.D[0, 0])
+    else:
+        scale = 1.0 + float(np.max(np.abs(np.concatenate([p, z, [0.0]]))))
+        s0 = 1j * 1.37 * scale
+        n = model.order
+        g = (model.C @ np.linalg.solve(s0 * np.eye(n) - model.A, model.B.astype(complex)))[0, 0] + model.D[0, 0]
+        k = float((g * np.prod(s0 - p) / np.prod(s0 - z)).real)
+    out = (z, p, k)
+    _ZPK_CACHE[model] = out
+    return out
 
 
 def _from_control(sys: Any) -> LinearModel:
@@ -221,20 +259,22 @@ class LoopMatrices:
     """State-space of controller and plant in series, with the loop still open.
 
     States are the controller's then the plant's. Inputs are the control error
-    ``e`` and the load ``d`` at the plant input; outputs are the undelayed plant
-    output ``y0`` (the measurement is ``y(t) = y0(t - delay)``) and the
-    controller output ``u``.
+    ``e``, the load ``d`` at the plant input and the setpoint feed-forward
+    ``r`` (the part of the setpoint path that differs from the error path:
+    zero without setpoint weights); outputs are the undelayed plant output
+    ``y0`` (the measurement is ``y(t) = y0(t - delay)``) and the controller
+    output ``u``.
 
     Attributes
     ----------
     A : numpy.ndarray
         (n, n) state matrix. [1/s]
     B : numpy.ndarray
-        (n, 2) input matrix, columns e and d.
+        (n, 3) input matrix, columns e, d and r.
     C : numpy.ndarray
         (2, n) output matrix, rows y0 and u.
     D : numpy.ndarray
-        (2, 2) feedthrough, rows y0 and u, columns e and d.
+        (2, 3) feedthrough, rows y0 and u, columns e, d and r.
     delay : float
         Dead time in the loop. [s]
     """
@@ -244,6 +284,32 @@ class LoopMatrices:
     C: np.ndarray
     D: np.ndarray
     delay: float
+
+
+def _two_input_controller(c: LinearModel, cr: LinearModel | None) -> tuple[np.ndarray, ...]:
+    """(A, B_e, B_r, C, D_e, D_r) of u = C(s) e + (C_r(s) - C(s)) r on one set of controller states.
+
+    The setpoint path C_r and the error path C share their poles; realised
+    with the same A and B (controllable form, as PID gives them) the two
+    paths become one observable form by transposition, where they differ
+    only in their input columns.
+    """
+    zero = np.zeros((c.order, 1))
+    if cr is None:
+        return c.A, c.B, zero, c.C, float(c.D[0, 0]), 0.0
+    if cr.order != c.order:
+        raise ParameterError(
+            f"`setpoint_path`: got {cr.order} states, expected the controller's {c.order} (the same poles)"
+        )
+    dr = float(cr.D[0, 0] - c.D[0, 0])
+    if np.array_equal(cr.A, c.A) and np.array_equal(cr.C, c.C):
+        return c.A, c.B, cr.B - c.B, c.C, float(c.D[0, 0]), dr
+    if np.array_equal(cr.A, c.A) and np.array_equal(cr.B, c.B):
+        return c.A.T, c.C.T, (cr.C - c.C).T, c.B.T, float(c.D[0, 0]), dr
+    raise ParameterError(
+        "`setpoint_path`: expected a realisation sharing the controller's A and B (or A and C), "
+        "as PID.to_linear() and PID.setpoint_to_linear() give"
+    )
 
 
 @dataclasses.dataclass(frozen=True, eq=False)
@@ -256,10 +322,18 @@ class Loop:
         The plant from controller output to measurement, dead time in ``delay``.
     controller : LinearModel or object with ``to_linear()``
         The controller from control error to controller output (e.g. a PID).
+    setpoint_path : LinearModel, optional
+        The controller from setpoint to controller output where it differs
+        from the error path (setpoint weights); taken from a PID's
+        ``setpoint_to_linear()`` when omitted. It must share the
+        controller's A and B (or A and C).
 
     Notes
     -----
     Negative unity feedback, load disturbance ``d`` added at the plant input.
+    The controller output is ``u = C_r(s) r - C(s) y`` with the setpoint path
+    ``C_r`` (Astrom & Hagglund, *Advanced PID Control*, ISA 2006, §3.4,
+    setpoint weighting (from memory)); with ``C_r = C`` this is ``C (r - y)``.
     Closed-loop relations (Astrom & Murray, *Feedback Systems*, 2nd ed., 2021,
     §12.1, the "gang of four"): y/r = T = L/(1+L), u/r = C S, y/d = G S,
     S = 1/(1+L).
@@ -267,10 +341,24 @@ class Loop:
 
     plant: LinearModel
     controller: LinearModel
+    setpoint_path: LinearModel | None = None
 
     def __post_init__(self) -> None:
+        given = self.controller
         object.__setattr__(self, "plant", as_linear(self.plant))
-        object.__setattr__(self, "controller", as_linear(self.controller))
+        object.__setattr__(self, "controller", as_linear(given))
+        path = self.setpoint_path
+        if path is None and hasattr(given, "setpoint_to_linear"):
+            path = given.setpoint_to_linear()
+        if path is not None:
+            path = as_linear(path)
+            if path.delay:
+                raise ParameterError(f"`setpoint_path`: got a dead time of {path.delay:g} s, expected none")
+            same = path.order == self.controller.order and all(
+                np.array_equal(getattr(path, m), getattr(self.controller, m)) for m in "ABCD"
+            )
+            path = None if same else path
+        object.__setattr__(self, "setpoint_path", path)
 
     @property
     def delay(self) -> float:
@@ -280,31 +368,39 @@ class Loop:
     @functools.cached_property
     def open_loop(self) -> LinearModel:
         """L = C G e^{-theta s} as one LinearModel (dead time in ``.delay``)."""
-        return series(self.controller, self.plant)
+        model = series(self.controller, self.plant)
+        zc, pc, kc = zpk(self.controller)
+        zg, pg, kg = zpk(self.plant)
+        _ZPK_CACHE[model] = (np.concatenate([zc, zg]), np.concatenate([pc, pg]), kc * kg)
+        return model
 
     @functools.cached_property
     def matrices(self) -> LoopMatrices:
-        """Controller and plant in series with error and load inputs (see :class:`LoopMatrices`)."""
+        """Controller and plant in series with error, load and setpoint inputs (see :class:`LoopMatrices`)."""
         c, g = self.controller, self.plant
         if c.delay:
             raise ParameterError(
                 f"`controller`: got a dead time of {c.delay:g} s, expected none for time responses "
                 "(put the dead time in the plant)"
             )
+        ca, cb, cbr, cc, cd, cdr = _two_input_controller(c, self.setpoint_path)
         nc, ng = c.order, g.order
+        gd = float(g.D[0, 0])
         A = np.zeros((nc + ng, nc + ng))
-        A[:nc, :nc] = c.A
-        A[nc:, :nc] = g.B @ c.C
+        A[:nc, :nc] = ca
+        A[nc:, :nc] = g.B @ cc
         A[nc:, nc:] = g.A
-        B = np.zeros((nc + ng, 2))
-        B[:nc, 0:1] = c.B
-        B[nc:, 0:1] = g.B @ c.D
-        B[nc:, 1:2] = g.B
+        B = np.zeros((nc + ng, 3))
+        B[:nc, 0:1] = cb
+        B[nc:, 0] = g.B[:, 0] * cd
+        B[nc:, 1] = g.B[:, 0]
+        B[:nc, 2:3] = cbr
+        B[nc:, 2] = g.B[:, 0] * cdr
         C = np.zeros((2, nc + ng))
-        C[0:1, :nc] = g.D @ c.C
+        C[0:1, :nc] = gd * cc
         C[0:1, nc:] = g.C
-        C[1:2, :nc] = c.C
-        D = np.array([[g.D[0, 0] * c.D[0, 0], g.D[0, 0]], [c.D[0, 0], 0.0]])
+        C[1:2, :nc] = cc
+        D = np.array([[gd * cd, gd, gd * cdr], [cd, 0.0, cdr]])
         return LoopMatrices(A, B, C, D, g.delay)
 
     def closed_loop_matrix(self) -> np.ndarray:
@@ -376,6 +472,17 @@ class Loop:
             Angular frequencies. [rad/s]
         """
         return self.plant.frequency_response(omega) * self.sensitivity(omega)
+
+    def setpoint_response(self, omega: Any) -> np.ndarray:
+        """y/r (jw) = C_r G / (1 + L): with setpoint weights, else T. [-]
+
+        Parameters
+        ----------
+        omega : array
+            Angular frequencies. [rad/s]
+        """
+        cr = self.setpoint_path if self.setpoint_path is not None else self.controller
+        return cr.frequency_response(omega) * self.plant.frequency_response(omega) * self.sensitivity(omega)
 
     def __repr__(self) -> str:
         return f"Loop(plant={self.plant!r}, controller={self.controller!r})"

@@ -10,6 +10,9 @@ Time responses
     between grid points it is interpolated linearly from samples already
     computed (a first-order hold, error O(h**2) in the step h), while the
     setpoint and load steps enter exactly. No Pade approximation is used.
+    The delay line (the samples in transit) joins the loop's state, so the
+    loop is again one affine recursion filled by doubling; a dead time of
+    more than 40 grid steps is stepped in blocks of the dead time instead.
 
 Time span (the rule)
     ``t_end = delay + ln(200) / sigma``, where ``sigma`` is the smallest decay
@@ -18,7 +21,12 @@ Time span (the rule)
     only for this choice). A mode decays to 0.5 % of its start in
     ``ln(200)/sigma``. Without any such pole: ``delay + 10/|p_fastest|`` or,
     failing that, ``max(10 delay, 1 s)``. The resolution is then
-    ``t_end/(points - 1)``; pass ``t_end`` to look closer.
+    ``t_end/(points - 1)``, lengthened so that it divides a loop's dead time
+    (the window never ends before ``t_end``). For a loop the window is then
+    doubled (up to three times) while the response is still more than 1 %
+    of its final change away from the final value at the end, so a slow
+    closed-loop mode with a large residue (a PI zero close to it) settles
+    inside the window. Pass ``t_end`` to look closer.
 
 Frequency grid
     From a decade below the slowest pole, zero or ``1/delay`` to a decade above
@@ -35,7 +43,7 @@ import numpy as np
 import scipy.linalg
 
 from .linear import LinearModel
-from .loop import Loop, LoopMatrices, as_linear
+from .loop import Loop, LoopMatrices, as_linear, zpk
 from .units import ParameterError
 
 __all__ = [
@@ -76,6 +84,11 @@ class StepResponse:
         ``"open loop step"``, ``"setpoint step"``, ``"load step"`` or ``"... impulse"``.
     delay : float
         Dead time of the model or loop. [s]
+    tail_iae : float
+        Integral of ``|y - final_value|`` beyond the last point, from the same
+        recursion continued three more windows (loop steps; 0 otherwise). [unit*s]
+    tail_itae : float
+        Integral of ``t |y - final_value|`` beyond the last point. [unit*s**2]
     """
 
     t: np.ndarray
@@ -85,6 +98,8 @@ class StepResponse:
     final_value: float
     kind: str
     delay: float = 0.0
+    tail_iae: float = 0.0
+    tail_itae: float = 0.0
 
     def to_frame(self) -> Any:
         """The response as a pandas DataFrame (columns t [s], y, u, setpoint)."""
@@ -168,28 +183,6 @@ class FrequencyResponse:
 
 # ---------------------------------------------------------------------------------------
 # poles, zeros and gain
-def zpk(model: LinearModel) -> tuple[np.ndarray, np.ndarray, float]:
-    """Zeros, poles and gain k of the delay-free part: k prod(s - z)/prod(s - p).
-
-    Parameters
-    ----------
-    model : LinearModel
-        The model.
-
-    Returns
-    -------
-    tuple
-        (zeros [1/s], poles [1/s], gain k [SI]).
-    """
-    p = np.asarray(model.poles, dtype=complex)
-    z = np.asarray(model.zeros, dtype=complex) if model.order else np.zeros(0, complex)
-    scale = 1.0 + float(np.max(np.abs(np.concatenate([p, z, [0.0]]))))
-    s0 = 1j * 1.37 * scale
-    g = complex(model.frequency_response(np.array([s0.imag]))[0] * np.exp(1j * s0.imag * model.delay))
-    k = g * np.prod(s0 - p) / np.prod(s0 - z)
-    return z, p, float(k.real)
-
-
 def zpk_response(z: np.ndarray, p: np.ndarray, k: float, delay: float, omega: np.ndarray) -> np.ndarray:
     """k prod(jw - z)/prod(jw - p) e^{-jw delay}.
 
@@ -295,7 +288,7 @@ def frequency_response(sys: Any, omega: Any = None, points: int = 400) -> Freque
         w = np.asarray(omega, dtype=float)
         if w.ndim != 1 or np.any(w <= 0) or not np.all(np.isfinite(w)):
             raise ParameterError("`omega`: expected a 1-D array of finite frequencies > 0 rad/s")
-    g = model.frequency_response(w)
+    g = zpk_response(z, p, k, model.delay, w)
     mag = np.abs(g)
     with np.errstate(divide="ignore"):
         mag_db = 20.0 * np.log10(mag)
@@ -463,137 +456,199 @@ def _open_loop(model: LinearModel, t: np.ndarray, impulse: bool) -> np.ndarray:
     return y
 
 
+def _inputs(m: LoopMatrices, r: float, d: float) -> tuple[np.ndarray, np.ndarray, float, float, float]:
+    """Constant inputs q = (d, r) with their columns: Bq (n, 2), d0 = y0 part, du = u part; d00, d10."""
+    q = np.array([d, r])
+    return q, m.B[:, 1:3], float(m.D[0, 1:3] @ q), float(m.D[1, 1:3] @ q), float(m.D[0, 0])
+
+
 def _free_loop(m: LoopMatrices, r: float, d: float) -> tuple[np.ndarray, np.ndarray]:
     """State matrix and constant input of the loop with its dead time removed (e = r - y0)."""
-    g = 1.0 / (1.0 + m.D[0, 0])
+    q, Bq, d0, _, d00 = _inputs(m, r, d)
+    g = 1.0 / (1.0 + d00)
     Acl = m.A - g * np.outer(m.B[:, 0], m.C[0])
-    bin_ = m.B[:, 0] * g * r + (m.B[:, 1] - m.B[:, 0] * g * m.D[0, 1]) * d
+    bin_ = m.B[:, 0] * g * (r - d0) + Bq @ q
     return Acl, bin_
 
 
 def _free_outputs(m: LoopMatrices, X: np.ndarray, r: float, d: float) -> tuple[np.ndarray, np.ndarray]:
-    g = 1.0 / (1.0 + m.D[0, 0])
-    e = g * (r - X @ m.C[0] - m.D[0, 1] * d)
-    y = X @ m.C[0] + m.D[0, 0] * e + m.D[0, 1] * d
-    u = X @ m.C[1] + m.D[1, 0] * e
-    return y, u
+    _, _, d0, du, d00 = _inputs(m, r, d)
+    g = 1.0 / (1.0 + d00)
+    y_free = X @ m.C[0]
+    e = g * (r - y_free - d0)
+    return y_free + d00 * e + d0, X @ m.C[1] + m.D[1, 0] * e + du
 
 
 def _closed_loop_free(
-    m: LoopMatrices, t: np.ndarray, r: float, d: float, z0: np.ndarray
+    m: LoopMatrices, h: float, count: int, r: float, d: float, z0: np.ndarray
 ) -> tuple[np.ndarray, np.ndarray]:
     """Delay-free loop, exact: y0 = y, e = r - y."""
     Acl, bin_ = _free_loop(m, r, d)
-    Phi, Gam = _zoh(Acl, bin_[:, None], t[1] - t[0])
-    X = _affine_orbit(Phi, Gam[:, 0], z0, len(t))
+    Phi, Gam = _zoh(Acl, bin_[:, None], h)
+    X = _affine_orbit(Phi, Gam[:, 0], z0, count)
     return _free_outputs(m, X, r, d)
 
 
 def loop_grid(delay: float, t_end: float, points: int) -> tuple[float, int, float]:
     """Grid step h, whole samples m and fraction f of the dead time (delay = (m + f) h).
 
-    The step is adjusted so that it divides the dead time whenever the dead
-    time is at least half a nominal step (f = 0); shorter dead times keep
-    the nominal step with m = 0.
+    The step is lengthened so that it divides the dead time whenever the dead
+    time is at least one nominal step (f = 0); the grid then reaches at least
+    ``t_end``. Shorter dead times keep the nominal step with m = 0.
     """
     h = t_end / (points - 1)
     if delay <= 0:
         return h, 0, 0.0
-    m = round(delay / h)
+    m = math.floor(delay / h * (1.0 + 1e-12))
     if m >= 1:
         return delay / m, int(m), 0.0
     return h, 0, delay / h
 
 
 def _loop_discrete(m: LoopMatrices, h: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Phi, Ga (e at step start), Gb (e at step end), Gd for a ramp in e and a constant d."""
+    """Phi, Ga (e at step start), Gb (e at step end), Gq (constant d and r) for a ramp in e."""
     n = m.A.shape[0]
-    M = np.zeros((n + 3, n + 3))
+    M = np.zeros((n + 4, n + 4))
     M[:n, :n] = m.A
-    M[:n, n] = m.B[:, 0]
-    M[:n, n + 1] = m.B[:, 1]
-    M[n, n + 2] = 1.0
+    M[:n, n : n + 3] = m.B
+    M[n, n + 3] = 1.0
     E = scipy.linalg.expm(M * h)
-    g1 = E[:n, n + 2] / h
-    return E[:n, :n], E[:n, n] - g1, g1, E[:n, n + 1]
+    g1 = E[:n, n + 3] / h
+    return E[:n, :n], E[:n, n] - g1, g1, E[:n, n + 1 : n + 3]
 
 
-def _closed_loop_delayed(
+_AUGMENTED_MAX = 40  # dead-time samples up to which the delay line joins the state (doubling orbit)
+
+
+def _delayed_map(
+    m: LoopMatrices, h: float, ms: int, f: float, r: float, d: float
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """One grid step of the loop with dead time as an affine map w' = F w + g of an augmented state.
+
+    w = (z, y0[k-ms], ..., y0[k-1]) for ms >= 1; (z, y[k]) for ms = 0 (dead
+    time f h shorter than a step, the delayed sample interpolated). Returns
+    F, g, and the rows (with constants) giving y[k] and u[k] from w[k].
+    """
+    Phi, Ga, Gb, Gq = _loop_discrete(m, h)
+    q, _, d0, du, d00 = _inputs(m, r, d)
+    n = m.A.shape[0]
+    c0, cu, d10 = m.C[0], m.C[1], float(m.D[1, 0])
+    size = n + max(ms, 1)
+    unit = np.eye(size)
+    # each quantity is (row over w, constant)
+    e0 = (-unit[n], r)  # e[k] = r - (delayed sample)
+    zrow = np.zeros(size)
+    zrow_c0 = zrow.copy()
+    zrow_c0[:n] = c0
+    y0 = (zrow_c0 + d00 * e0[0], d00 * r + d0)
+    F = np.zeros((size, size))
+    g = np.zeros(size)
+    F[:n, :n] = Phi
+    F[:n] += np.outer(Ga, e0[0])
+    g[:n] = Ga * r + Gq @ q
+    if ms >= 1:
+        e1 = (-unit[n + 1], r) if ms >= 2 else (-y0[0], r - y0[1])
+        F[:n] += np.outer(Gb, e1[0])
+        g[:n] += Gb * e1[1]
+        F[n : n + ms - 1, n + 1 : n + ms] = np.eye(ms - 1)
+        F[n + ms - 1], g[n + ms - 1] = y0
+    else:
+        beta = float(c0 @ Gb) + d00
+        # alpha = y0[k+1] if e[k+1] = r; v' = ((1 - f) alpha + f y0[k]) / (1 + (1 - f) beta)
+        free_rows, free_c = F[:n].copy(), g[:n].copy()
+        alpha = (c0 @ free_rows, float(c0 @ (free_c + Gb * r)) + d00 * r + d0)
+        scale = 1.0 / (1.0 + (1.0 - f) * beta)
+        v1 = (scale * ((1.0 - f) * alpha[0] + f * y0[0]), scale * ((1.0 - f) * alpha[1] + f * y0[1]))
+        F[:n] = free_rows - np.outer(Gb, v1[0])
+        g[:n] = free_c + Gb * (r - v1[1])
+        F[n], g[n] = v1
+    y_row = unit[n]
+    u_row = zrow.copy()
+    u_row[:n] = cu
+    u_row += d10 * e0[0]
+    return F, g, y_row, u_row, np.array([0.0, d10 * r + du])
+
+
+def _closed_loop_augmented(
     m: LoopMatrices, h: float, count: int, ms: int, f: float, r: float, d: float, z0: np.ndarray
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Loop with dead time (ms + f) h: y(t) = y0(t - delay), e = r - y ramps between grid points."""
-    Phi, Ga, Gb, Gd = _loop_discrete(m, h)
-    n = m.A.shape[0]
-    c0, cu = m.C[0], m.C[1]
-    d00, d01, d10 = m.D[0, 0], m.D[0, 1], m.D[1, 0]
-    y0 = np.zeros(count)
+    F, g, y_row, u_row, const = _delayed_map(m, h, ms, f, r, d)
+    w0 = np.zeros(F.shape[0])
+    w0[: len(z0)] = z0
+    W = _affine_orbit(F, g, w0, count)
+    return W @ y_row + const[0], W @ u_row + const[1]
+
+
+def _closed_loop_blocks(
+    m: LoopMatrices, h: float, count: int, ms: int, r: float, d: float, z0: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Long dead time (ms steps): blocks of ms steps in which every delayed sample is already known."""
+    Phi, Ga, Gb, Gq = _loop_discrete(m, h)
+    q, _, d0, du, d00 = _inputs(m, r, d)
+    n, b = m.A.shape[0], ms
+    c0, cu, d10 = m.C[0], m.C[1], float(m.D[1, 0])
+    gq = Gq @ q
+    # powers Phi^j, j = 0..b, by doubling
+    P = np.empty((b + 1, n, n))
+    P[0], P[1] = np.eye(n), Phi
+    have = 2
+    while have <= b:
+        take = min(have - 1, b + 1 - have)
+        P[have : have + take] = P[have - 1] @ P[1 : take + 1]
+        have += take
+    # z[j] = Phi^j z0 + sum_i Phi^(j-1-i) (Ga E_i + Gb E_(i+1)) + sum_i Phi^i gq, j = 0..b
+    pa, pb, pg = P @ Ga, P @ Gb, P @ gq  # (b+1, n)
+    j = np.arange(b + 1)[:, None]
+    i = np.arange(b + 1)[None, :]
+    lag_a, lag_b = j - 1 - i, j - i
+    Ze = np.where((lag_a >= 0)[..., None], pa[np.clip(lag_a, 0, b)], 0.0)
+    Ze = Ze + np.where(((lag_b >= 0) & (i >= 1))[..., None], pb[np.clip(lag_b, 0, b)], 0.0)  # (b+1, b+1, n)
+    Zc = np.concatenate([np.zeros((1, n)), np.cumsum(pg[:-1], axis=0)])  # (b+1, n)
+    Y0z = np.einsum("k,jkl->jl", c0, P[:b])  # (b, n)
+    Y0e = Ze[:b] @ c0 + d00 * np.eye(b + 1)[:b]
+    Y0c = Zc[:b] @ c0 + d0
+    Uz = np.einsum("k,jkl->jl", cu, P[:b])
+    Ue = Ze[:b] @ cu + d10 * np.eye(b + 1)[:b]
+    Uc = Zc[:b] @ cu + du
+    offsets = np.arange(b + 1) - ms
+    padded = np.zeros(count + b + 1)  # y0 with zeros before t = 0 at the front
     u = np.zeros(count)
     y = np.zeros(count)
     z = z0.astype(float).copy()
-    if ms == 0:  # dead time shorter than a step: the sample at the step end depends on this step
-        beta = c0 @ Gb + d00
-        v_now = 0.0
-        for k in range(count):
-            e = r - v_now
-            y0[k] = c0 @ z + d00 * e + d01 * d
-            u[k] = cu @ z + d10 * e
-            y[k] = v_now
-            free = Phi @ z + Ga * e + Gd * d
-            alpha = c0 @ (free + Gb * r) + d00 * r + d01 * d
-            v_next = ((1.0 - f) * alpha + f * y0[k]) / (1.0 + (1.0 - f) * beta)
-            z = free + Gb * (r - v_next)
-            v_now = v_next
-        return y, u
-    # explicit blocks of ms steps: inside a block every delayed sample is already known (f = 0)
-    b = ms
-    Oz = np.zeros((2 * b, n))
-    Oe = np.zeros((2 * b, b + 1))
-    Od = np.zeros(2 * b)
-    Pz, Pe, pd = np.eye(n), np.zeros((n, b + 1)), np.zeros(n)
-    for j in range(b):
-        Oz[j], Oe[j], Od[j] = c0 @ Pz, c0 @ Pe, c0 @ pd + d01
-        Oe[j, j] += d00
-        Oz[b + j], Oe[b + j], Od[b + j] = cu @ Pz, cu @ Pe, cu @ pd
-        Oe[b + j, j] += d10
-        Pz = Phi @ Pz
-        Pe = Phi @ Pe
-        Pe[:, j] += Ga
-        Pe[:, j + 1] += Gb
-        pd = Phi @ pd + Gd
-    offsets = np.arange(b + 1) - ms
-    padded = np.zeros(count + b + 1)  # y0 with zeros before t = 0 at the front
     for k0 in range(0, count, b):
-        idx = k0 + offsets + b  # positions in `padded` (shifted by b)
+        idx = k0 + offsets + b
         v = padded[idx]
-        v0 = v[0]
-        y0k0 = c0 @ z + d00 * (r - v0) + d01 * d
-        padded[k0 + b] = y0k0
-        v[b] = y0k0  # idx[b] = k0 + b: the sample just computed
+        v[b] = c0 @ z + d00 * (r - v[0]) + d0  # the sample at k0 (delay = b steps)
         E = r - v
-        out = Oz @ z + Oe @ E + Od * d
         take = min(b, count - k0)
-        padded[k0 + b : k0 + b + take] = out[:take]
-        u[k0 : k0 + take] = out[b : b + take]
+        padded[k0 + b : k0 + b + take] = (Y0z @ z + Y0e @ E + Y0c)[:take]
+        u[k0 : k0 + take] = (Uz @ z + Ue @ E + Uc)[:take]
         y[k0 : k0 + take] = v[:take]
-        z = Pz @ z + Pe @ E + pd * d
+        z = P[b] @ z + E @ Ze[b] + Zc[b]
     return y, u
 
 
-def _loop_response(loop: Loop, t_end: float, points: int, r: float, d: float, impulse: bool) -> tuple:
+def _loop_response(
+    loop: Loop, t_end: float, points: int, r: float, d: float, impulse: bool, extra: int = 0
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Times, y and u of a loop response on ``points`` grid points, plus ``extra`` points beyond."""
     m = loop.matrices
     n = m.A.shape[0]
     z0 = np.zeros(n)
     if impulse:  # a unit impulse in r (or d) sets the states at 0+
-        if abs(m.D[0, 0]) > 0 or abs(m.D[0, 1]) > 0:
+        if abs(m.D[0, 0]) > 0 or abs(m.D[0, 1]) > 0 or np.any(m.D[:, 2] != 0):
             raise ParameterError("`loop`: impulse response needs a strictly proper controller-plant series")
-        z0 = m.B[:, 0] * r + m.B[:, 1] * d
+        z0 = m.B[:, 0] * r + m.B[:, 1] * d + m.B[:, 2] * r
         r, d = 0.0, 0.0
     h, ms, f = loop_grid(loop.delay, t_end, points)
-    t = h * np.arange(points)
+    count = points + extra
+    t = h * np.arange(count)
     if loop.delay == 0:
-        y, u = _closed_loop_free(m, t, r, d, z0)
+        y, u = _closed_loop_free(m, h, count, r, d, z0)
+    elif ms <= _AUGMENTED_MAX:
+        y, u = _closed_loop_augmented(m, h, count, ms, f, r, d, z0)
     else:
-        y, u = _closed_loop_delayed(m, h, points, ms, f, r, d, z0)
+        y, u = _closed_loop_blocks(m, h, count, ms, r, d, z0)
     return t, y, u
 
 
@@ -608,6 +663,39 @@ def _closed_loop_final(loop: Loop, r: float, d: float) -> float:
     zss = -np.linalg.solve(Acl, bin_)
     y, _ = _free_outputs(m, zss[None, :], r, d)
     return float(y[0])
+
+
+_EXTEND = 3  # times the automatic span may be doubled until the response has settled
+_SETTLED = 0.01  # settled: the end of the window within 1 % of the final change (half the 2 % band)
+_TAIL = 3  # the response is continued for this many windows to integrate the tail
+
+
+def _settled_loop_response(
+    loop: Loop, t_end: Any, points: int, r: float, d: float
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, float, float, float]:
+    """Loop step response whose automatic window covers the settling (doubled while it does not).
+
+    Returns t, y, u on the window, the final value, and the integrals of
+    |y - final| and t |y - final| beyond the window (from the same recursion
+    continued for ``_TAIL`` windows).
+    """
+    auto = t_end is None
+    t_end, points = _grid(t_end, loop, points)
+    final = _closed_loop_final(loop, r, d)
+    for _ in range(_EXTEND + 1):
+        t, y, u = _loop_response(loop, t_end, points, r, d, impulse=False, extra=_TAIL * (points - 1))
+        if not auto or not math.isfinite(final):
+            break
+        dev = np.abs(y[:points] - final)
+        size = abs(final - y[0]) if r else float(np.max(dev))
+        if dev[points - 1] <= _SETTLED * size:
+            break
+        t_end *= 2.0
+    tail = np.abs(y[points - 1 :] - final) if math.isfinite(final) else np.full(len(y) - points + 1, np.nan)
+    tt = t[points - 1 :]
+    tail_iae = float(np.trapezoid(tail, tt))
+    tail_itae = float(np.trapezoid(tail * tt, tt))
+    return t[:points], y[:points], u[:points], final, tail_iae, tail_itae
 
 
 def step_response(sys: Any, t_end: Any = None, points: int = 500) -> StepResponse:
@@ -627,10 +715,8 @@ def step_response(sys: Any, t_end: Any = None, points: int = 500) -> StepRespons
     StepResponse
     """
     if isinstance(sys, Loop):
-        t_end, points = _grid(t_end, sys, points)
-        t, y, u = _loop_response(sys, t_end, points, 1.0, 0.0, impulse=False)
-        final = _closed_loop_final(sys, 1.0, 0.0)
-        return StepResponse(t, y, u, np.ones(points), final, "setpoint step", sys.delay)
+        t, y, u, final, tail, tail_t = _settled_loop_response(sys, t_end, points, 1.0, 0.0)
+        return StepResponse(t, y, u, np.ones(len(t)), final, "setpoint step", sys.delay, tail, tail_t)
     model = as_linear(sys)
     t_end, points = _grid(t_end, model, points)
     t = np.linspace(0.0, t_end, points)
@@ -659,10 +745,8 @@ def load_response(loop: Loop, t_end: Any = None, points: int = 500) -> StepRespo
     """
     if not isinstance(loop, Loop):
         raise ParameterError(f"`loop`: got {type(loop).__name__}, expected a Loop")
-    t_end, points = _grid(t_end, loop, points)
-    t, y, u = _loop_response(loop, t_end, points, 0.0, 1.0, impulse=False)
-    final = _closed_loop_final(loop, 0.0, 1.0)
-    return StepResponse(t, y, u, np.zeros(points), final, "load step", loop.delay)
+    t, y, u, final, tail, tail_t = _settled_loop_response(loop, t_end, points, 0.0, 1.0)
+    return StepResponse(t, y, u, np.zeros(len(t)), final, "load step", loop.delay, tail, tail_t)
 
 
 def impulse_response(sys: Any, t_end: Any = None, points: int = 500) -> StepResponse:
