@@ -80,7 +80,7 @@ class ModelExplorationBoard(w.AppLayout):
 
     def __init__(self, design: Design | DesignModel, *, delay: float = 0.01) -> None:
         self.model = _model(design, delay)
-        self.panel = ParameterPanel(self.model)
+        self.panel = ParameterPanel(self.model, open_group="operating point")
         self.operating = OperatingPointView(self.model)
         self.step = StepView(self.model)
         self.pole_zero = PoleZeroView(self.model)

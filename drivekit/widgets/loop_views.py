@@ -132,7 +132,9 @@ class StepView(View):
             stroke_width=1.6,
         )
         self.y_axis = bq.Axis(scale=y, side="left", label="measurement", grid_lines="dashed", tick_format=".4g")
-        self.u_axis = bq.Axis(scale=u, side="left", label="controller output", grid_lines="dashed", tick_format=".4g")
+        self.u_axis = bq.Axis(
+            scale=u, side="left", label="controller output", grid_lines="dashed", tick_format=".4g", num_ticks=5
+        )
         self.figure = figure(
             [self.setpoint, self.measurement, self.settling],
             [bq.Axis(scale=t, label="time [s]", grid_lines="dashed"), self.y_axis],

@@ -272,6 +272,8 @@ class ParameterPanel(w.VBox):
         The design model the panel edits.
     groups : sequence of str, optional
         Groups to show (see :data:`GROUP_ORDER`); all by default.
+    open_group : str, optional
+        Group open at the start; the controller (else the operating point) by default.
     on_record : callable, optional
         ``on_record(design) -> str``: writes the current values to the design
         file and returns a message to show. Left to the record layer; the
@@ -291,6 +293,7 @@ class ParameterPanel(w.VBox):
         *,
         groups: tuple[str, ...] | None = None,
         on_record: Callable[[Any], Any] | None = None,
+        open_group: str | None = None,
     ) -> None:
         self.model = model
         self.on_record = on_record
@@ -307,7 +310,9 @@ class ParameterPanel(w.VBox):
         names = [g for g in GROUP_ORDER if g in grouped] + [g for g in grouped if g not in GROUP_ORDER]
         self.accordion = w.Accordion(children=[w.VBox(grouped[g]) for g in names], titles=tuple(names))
         self.accordion.add_class("dk-groups")
-        if "controller" in names:
+        if open_group in names:
+            self.accordion.selected_index = names.index(open_group)
+        elif "controller" in names:
             self.accordion.selected_index = names.index("controller")
         elif "operating point" in names:
             self.accordion.selected_index = names.index("operating point")

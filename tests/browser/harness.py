@@ -38,11 +38,48 @@ CHROMIUM_ARGS = [
 STEP_PATHS = ".dk-fig-step svg g.curve path.line"
 KP_HANDLE = ".dk-p-controller-kp .noUi-handle"
 METRICS = ".dk-metrics-table"
+#: The model-exploration board: notebook written next to the demo, the operating-flow slider and readout.
+EXPLORE_NAME = "explore.ipynb"
+FLOW_HANDLE = ".dk-p-operating-flow .noUi-handle"
+OPERATING_READOUT = ".dk-operating-readout"
+_EXPLORE_CODE = """from drivekit import demo
+from drivekit.design import Design
+from drivekit.pid import PID
+from drivekit.widgets import ModelExplorationBoard
+
+design = Design(
+    train=demo.raw_water_pump(),
+    operating=("flow", "380 m**3/h"),
+    controller=PID(kp=1080.0, ti="3 s"),
+    output_span=(0.0, 100.0),
+)
+board = ModelExplorationBoard(design)
+board"""
 
 _WAIT_KERNEL_IDLE = """async () => { const w = window.jupyterapp.shell.currentWidget; await w.sessionContext.ready;
   const k = w.sessionContext.session.kernel;
   while (k.status !== 'idle') await new Promise(r => setTimeout(r, 50)); }"""
 _STEP_D = f"() => Array.from(document.querySelectorAll('{STEP_PATHS}')).map(e => e.getAttribute('d')).join('|')"
+
+
+def _write_explore_notebook(path: Path) -> None:
+    """A one-cell notebook showing the model-exploration board of the invented Marrow Creek loop."""
+    import nbformat
+
+    nb = nbformat.v4.new_notebook()
+    nb.cells = [nbformat.v4.new_code_cell(_EXPLORE_CODE)]
+    nb.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3", "language": "python"}
+    nbformat.write(nb, str(path))
+
+
+def shutdown_kernels(base: str, token: str) -> None:
+    """Stop every running notebook session of the server (one kernel at a time on two cores)."""
+    with urllib.request.urlopen(f"{base}/api/sessions?token={token}", timeout=10) as r:
+        sessions = json.loads(r.read())
+    for session in sessions:
+        req = urllib.request.Request(f"{base}/api/sessions/{session['id']}?token={token}", method="DELETE")
+        with urllib.request.urlopen(req, timeout=10):
+            pass
 
 
 def _free_port() -> int:
@@ -64,6 +101,7 @@ def jupyter_lab(notebook: Path = DEMO_NOTEBOOK) -> Iterator[tuple[str, str, str]
     )
     name = "board.ipynb"
     shutil.copy(notebook, root / name)
+    _write_explore_notebook(root / EXPLORE_NAME)
     port, token = _free_port(), secrets.token_hex(16)
     env = dict(os.environ)
     for var, sub in (
@@ -119,8 +157,8 @@ def jupyter_lab(notebook: Path = DEMO_NOTEBOOK) -> Iterator[tuple[str, str, str]
 
 
 @contextlib.contextmanager
-def chromium() -> Iterator[object]:
-    """Headless Debian Chromium with a fresh profile; yields a Playwright page."""
+def chromium(height: int = 900) -> Iterator[object]:
+    """Headless Debian Chromium with a fresh profile; yields a Playwright page ``height`` [px] tall."""
     from playwright.sync_api import sync_playwright
 
     profile = tempfile.mkdtemp(prefix="dk-chr-")
@@ -131,7 +169,7 @@ def chromium() -> Iterator[object]:
                 executable_path=str(CHROMIUM),
                 headless=True,
                 args=CHROMIUM_ARGS,
-                viewport={"width": 1366, "height": 900},
+                viewport={"width": 1366, "height": height},
             )
             try:
                 yield ctx.pages[0] if ctx.pages else ctx.new_page()

@@ -213,6 +213,7 @@ def test_no_controller_and_exploration_board(loop_design):
     np.testing.assert_allclose(np.sort(pz.poles.x), np.sort(ev.plant.poles.real), rtol=1e-12)
     board = ModelExplorationBoard(loop_design, delay=0.0)
     assert board.operating.point.x[0] == pytest.approx(380.0)
+    assert board.panel.accordion.selected_index == board.panel.accordion.titles.index("operating point")
     assert SensitivityView(board.model).model is board.model
 
 
