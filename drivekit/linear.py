@@ -11,7 +11,7 @@ from typing import Any
 import numpy as np
 import scipy.linalg
 
-from .units import ureg
+from .units import pretty_unit, ureg
 
 __all__ = ["FactoredForm", "LinearModel", "Mode", "ModelComparison"]
 
@@ -79,7 +79,7 @@ class FactoredForm:
         body = f"{num} / ({den})" if len(self.denominator) > 1 else (f"{num} / {den}" if den else num)
         if self.delay > 0:
             body += f" * exp(-{self.delay:.4g} s)"
-        return f"{body}   [{self.gain_unit}]"
+        return f"{body}   [{pretty_unit(self.gain_unit)}]"
 
     def __str__(self) -> str:
         return self.text

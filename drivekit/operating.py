@@ -11,7 +11,7 @@ import numpy as np
 from .constants import STANDARD_GRAVITY
 from .motors import DCMotor, InductionMotor
 from .pumps import CentrifugalPump
-from .units import ParameterError, ParamSpec, to_si, ureg
+from .units import ParameterError, ParamSpec, pretty_unit, to_si, ureg
 
 if TYPE_CHECKING:
     from .drivetrain import DriveTrain
@@ -147,7 +147,7 @@ class OperatingPoint:
         return out
 
     def table(self) -> list[tuple[str, float, str]]:
-        """Rows (quantity, value, unit) in the units the trade uses (rpm, m**3/h, kW, bar, %)."""
+        """Rows (quantity, value, unit) in the units the trade uses (rpm, m**3/h, kW, bar, %), units in pint syntax."""
         trade = {"rad/s": ("rpm", _RPM), "m**3/s": ("m**3/h", 3600.0), "W": ("kW", 1e-3), "Pa": ("bar", 1e-5)}
         rows = []
         for name, (value, unit) in self.values().items():
@@ -162,7 +162,8 @@ class OperatingPoint:
         """:meth:`table` as a pandas DataFrame (pandas must be installed)."""
         import pandas as pd
 
-        return pd.DataFrame(self.table(), columns=["quantity", "value", "unit"]).set_index("quantity")
+        rows = [(name, value, pretty_unit(unit)) for name, value, unit in self.table()]
+        return pd.DataFrame(rows, columns=["quantity", "value", "unit"]).set_index("quantity")
 
     def power_balance(self) -> dict[str, float]:
         """Where the input power goes at this point, each in [W].

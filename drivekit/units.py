@@ -280,3 +280,34 @@ def display(value: float, si_unit: str, unit: str) -> float:
     float
     """
     return float(ureg.Quantity(value, si_unit).to(unit).magnitude)
+
+
+_SUPERSCRIPTS = (("**-1", "⁻¹"), ("**2", "²"), ("**3", "³"), ("**4", "⁴"), ("*", "·"), ("percent", "%"))
+
+
+def pretty_unit(unit: str) -> str:
+    """A unit written for reading: ``"m**3/h"`` -> ``"m³/h"``, ``"N*m"`` -> ``"N·m"``, ``"(rpm)/(Hz)"`` -> ``"rpm/Hz"``.
+
+    The order of the factors is kept as written (pint's own pretty format
+    sorts them, which turns N*m into m·N).
+
+    Parameters
+    ----------
+    unit : str
+        A unit as drivekit writes it (pint syntax).
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> pretty_unit("(m**3/h)/(%)"), pretty_unit("kg*m**2"), pretty_unit("percent/(m**3/s)")
+    ('(m³/h)/%', 'kg·m²', '%/(m³/s)')
+    """
+    out = unit
+    for a, b in _SUPERSCRIPTS:
+        out = out.replace(a, b)
+    for single in ("%", "Hz", "V", "rpm", "s", "m", "bar"):
+        out = out.replace(f"({single})", single)
+    return out

@@ -20,7 +20,7 @@ import sys
 from typing import Any
 
 from ..design import Design
-from ..units import ParamSpec, parameter_specs
+from ..units import ParamSpec, parameter_specs, pretty_unit
 from .designfile import dumps_design, quantity_text
 from .results import Evaluation, evaluate
 
@@ -179,7 +179,7 @@ def _sections(ev: Evaluation) -> list[tuple[str, str, list[tuple[Any, ...]], tup
     if curve:
         out.append(("Pump curve points", "dk-curve", curve, ("flow [m**3/h]", "head [m]", "efficiency [%]"), (0, 1, 2)))
     if ev.operating_point is not None:
-        rows = [(name, f"{value:.4g}", unit) for name, value, unit in ev.operating_point.table()]
+        rows = [(name, f"{value:.4g}", pretty_unit(unit)) for name, value, unit in ev.operating_point.table()]
         out.append(("Operating point", "dk-operating", rows, ("quantity", "value", "unit"), (1,)))
     if ev.model is not None:
         m = ev.model
