@@ -714,7 +714,10 @@ class LoadMetrics:
     offset : float
         Steady deviation left (0 with integral action). [SI output unit]
     iae : float
-        Integral of |deviation|. [unit*s]
+        Integral of |deviation| to infinity: over the response and its tail
+        beyond the window (``StepResponse.tail_iae``). With integral action
+        and no change of sign it equals 1/ki for a unit load step (Astrom &
+        Hagglund, *Advanced PID Control*, ISA 2006, §4 (from memory)). [unit*s]
     """
 
     peak_deviation: float
@@ -772,5 +775,5 @@ def load_metrics(response: Any, band: float = 0.05) -> LoadMetrics:
         k = outside[-1]
         a, b = abs(dev[k]) - width, abs(dev[k + 1]) - width
         recovery = float(resp.t[k] + a / (a - b) * (resp.t[k + 1] - resp.t[k]))
-    iae = float(np.trapezoid(np.abs(dev), resp.t))
+    iae = float(np.trapezoid(np.abs(dev), resp.t)) + resp.tail_iae
     return LoadMetrics(peak, float(peak_t[0]), recovery, width, offset, iae)

@@ -149,15 +149,100 @@ def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndar
 
 
 def _follow(roots: np.ndarray) -> np.ndarray:
-    """Order roots so that each column moves continuously from one gain to the next."""
-    out = roots.copy()
-    n = roots.shape[1]
-    for i in range(1, len(out)):
-        cost = np.abs(out[i - 1][:, None] - roots[i][None, :])
-        col = np.argmin(cost, axis=1)
-        if len(set(col.tolist())) < n:  # nearest neighbours clash: optimal assignment
-            col = scipy.optimize.linear_sum_assignment(cost)[1]
-        out[i] = roots[i][col]
+    """Order roots so that each column moves continuously from one gain to the next.
+
+    Nearest neighbours between successive gains are found for all gains at
+    once; where two roots claim the same neighbour the optimal assignment
+    decides. The matchings are then chained from the first gain.
+    """
+    G, n = roots.shape
+    if G < 2 or n < 2:
+        return roots.copy()
+    cost = np.abs(roots[:-1, :, None] - roots[1:, None, :])
+    match = np.argmin(cost, axis=2)
+    srt = np.sort(match, axis=1)
+    clash = np.nonzero(np.any(srt[:, 1:] == srt[:, :-1], axis=1))[0]
+    for i in clash:
+        match[i] = scipy.optimize.linear_sum_assignment(cost[i])[1]
+    order = np.empty((G, n), dtype=int)
+    cur = list(range(n))
+    order[0] = cur
+    for i, row in enumerate(match.tolist(), start=1):
+        cur = [row[j] for j in cur]
+        order[i] = cur
+    return np.take_along_axis(roots, order, axis=1)
+
+
+_EXACT_STRIDE = 6  # closed-loop poles by eigenvalues at every 6th gain, the others by Newton from there
+_NEWTON_STEPS = 4
+
+
+def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndarray:
+    """Continuous branches of den + K num = 0 for sorted gains K.
+
+    Eigenvalues of the companion matrices at every ``_EXACT_STRIDE``-th gain;
+    in between, the branch interpolated in K (cubic Hermite with the branch
+    slopes, Ogata 5th ed. §6-2 for dK/ds) and polished by Newton steps on
+    the polynomial. A gain whose polished roots fail a check (Newton step not
+    at round-off, two roots merged, or the root sum off the coefficient by
+    Vieta's formula) is solved by eigenvalues as well.
+    """
+    G = len(gains)
+    if G <= 3 * _EXACT_STRIDE:
+        return _follow(_roots_batch(num, den, gains))
+    exact = np.unique(np.concatenate([np.arange(0, G, _EXACT_STRIDE), [G - 1]]))
+    coarse = _follow(_roots_batch(num, den, gains[exact]))
+    out = np.empty((G, coarse.shape[1]), complex)
+    out[exact] = coarse
+    rest = np.setdiff1d(np.arange(G), exact)
+    j = np.searchsorted(exact, rest) - 1
+    ka, kb = gains[exact[j]], gains[exact[j + 1]]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        frac = np.where(kb > ka, (gains[rest] - ka) / (kb - ka), 0.0)
+    # cubic Hermite in K with the branch slopes ds/dK = -N(s) / (D'(s) + K N'(s)) at the exact gains
+    ke = gains[exact][:, None]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = -np.polyval(num, coarse) / (
+            np.polyval(np.polyder(den), coarse) + ke * np.polyval(np.polyder(num), coarse)
+        )
+    t = frac[:, None]
+    width = (kb - ka)[:, None]
+    z = (
+        (2 * t**3 - 3 * t**2 + 1) * coarse[j]
+        + (t**3 - 2 * t**2 + t) * width * slope[j]
+        + (-2 * t**3 + 3 * t**2) * coarse[j + 1]
+        + (t**3 - t**2) * width * slope[j + 1]
+    )
+    z = np.where(np.isfinite(z), z, coarse[j])
+    nump = np.concatenate([np.zeros(len(den) - len(num)), num])
+    coeffs = den[None, :] + gains[rest, None] * nump[None, :]
+    coeffs = coeffs / coeffs[:, :1]
+    step = np.zeros_like(z)
+    for _ in range(_NEWTON_STEPS):
+        p = np.ones_like(z)
+        dp = np.zeros_like(z)
+        for c in coeffs[:, 1:].T:
+            dp = dp * z + p
+            p = p * z + c[:, None]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step = p / dp
+        z = z - step
+    with np.errstate(invalid="ignore"):
+        scale = 1.0 + np.max(np.abs(z), axis=1)
+    gap = np.where(np.eye(z.shape[1], dtype=bool)[None], np.inf, np.abs(z[:, :, None] - z[:, None, :]))
+    bad = (
+        ~np.all(np.isfinite(z), axis=1)
+        | (np.max(np.abs(step), axis=1) > 1e-10 * scale)
+        | (np.min(gap, axis=(1, 2)) < 1e-6 * scale)
+        | (np.abs(np.sum(z, axis=1) + coeffs[:, 1]) > 1e-9 * scale * z.shape[1])
+    )
+    if np.any(bad):
+        redo = _roots_batch(num, den, gains[rest[bad]])
+        # order the recomputed roots like their interpolated guess
+        for r, guess in zip(np.nonzero(bad)[0], redo, strict=True):
+            col = scipy.optimize.linear_sum_assignment(np.abs(z[r][:, None] - guess[None, :]))[1]
+            z[r] = guess[col]
+    out[rest] = z
     return out
 
 
@@ -256,7 +341,7 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
         if k.ndim != 1 or np.any(k < 0) or not np.all(np.isfinite(k)):
             raise ParameterError("`gains`: expected a 1-D array of finite gain factors >= 0")
         k = np.sort(k)
-    branches = _follow(_roots_batch(num, den, k))
+    branches = _locus_roots(num, den, k)
     p_ol = np.roots(den)
     z_ol = np.roots(np.trim_zeros(num, "f")) if m > 0 else np.zeros(0, complex)
     q = n - m

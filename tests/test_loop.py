@@ -87,3 +87,26 @@ def test_loop_relations_and_poles():
     # Source: poles of python-control's feedback(C G)
     ref_p = np.sort_complex(control.poles(control.feedback(c * control.tf([2.0], [1.0, 3.0, 1.0]))))
     np.testing.assert_allclose(np.sort_complex(free.closed_loop_poles()), ref_p, rtol=1e-9)
+
+
+def test_setpoint_weights_shape_the_setpoint_response():
+    from drivekit.pid import PID
+    from drivekit.responses import step_response
+
+    g = control.tf([2.0], [1.0, 3.0, 1.0])
+    for b, c in [(0.5, 0.0), (1.0, 0.0), (0.3, 0.5)]:
+        pid = PID(1.2, 2.0, 0.4, setpoint_weights=(b, c))
+        loop = Loop(as_linear(g), pid)
+        r = step_response(loop, t_end=15.0)
+        # Source: python-control: y/r = C_r G / (1 + C G) with the PID's setpoint path C_r (setpoint_tf)
+        ref = control.step_response(control.feedback(g, pid.tf) * pid.setpoint_tf, r.t).outputs
+        np.testing.assert_allclose(r.y, ref, atol=1e-9)
+        ref_u = control.step_response(control.feedback(1, g * pid.tf) * pid.setpoint_tf, r.t).outputs
+        np.testing.assert_allclose(r.u, ref_u, atol=1e-9 * max(1.0, np.max(np.abs(ref_u))))
+        np.testing.assert_allclose(
+            loop.setpoint_response(W),
+            control.frequency_response(control.feedback(g, pid.tf) * pid.setpoint_tf, W).complex.ravel(),
+            rtol=1e-10,
+        )
+    # a PI with b = 1 has no separate setpoint path
+    assert Loop(as_linear(g), PID(1.2, 2.0)).setpoint_path is None

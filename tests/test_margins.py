@@ -219,3 +219,19 @@ def test_bad_arguments_and_tables():
     m = loop_margins(control.tf([1.0], [1.0, 3.0, 2.0, 0.0]))
     assert m.table()[0][1] == m.verdict
     assert len(step_metrics(control.tf([1], [1, 1])).table()) == 10
+
+
+def test_load_iae_of_a_non_overshooting_pi_loop_is_one_over_ki():
+    from drivekit.pid import PID
+
+    plant = as_linear(control.tf([1.0], [2.0, 1.0]), delay=0.5)
+    for kp, ti in [(0.5, 2.0), (0.3, 2.0)]:
+        resp = load_response(Loop(plant, PID(kp, ti)))
+        # the answer never changes sign, inside the window or in its tail
+        assert np.min(resp.y) >= 0.0
+        lm = load_metrics(resp)
+        # Source: Astrom & Hagglund, Advanced PID Control, ISA 2006, §4 (from memory): with integral action the
+        # integral of the error after a unit load step is 1/ki = ti/kp, so IAE = 1/ki when it keeps one sign
+        assert lm.iae == pytest.approx(ti / kp, rel=1e-6)
+        # the window alone falls short by the tail, which the response carries
+        assert resp.tail_iae > 0.0

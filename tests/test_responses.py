@@ -194,3 +194,27 @@ def test_bad_arguments():
     assert dataclasses.is_dataclass(r)
     with pytest.raises(dataclasses.FrozenInstanceError):
         r.final_value = 3.0
+
+
+@pytest.mark.parametrize(("kp", "ti"), [(150.0, 12.0), (20.0, 1.3556), (20.0, 0.61)])
+def test_slow_pi_on_the_demo_loop_settles_inside_the_window(kp, ti):
+    from drivekit import demo
+    from drivekit.margins import step_metrics
+    from drivekit.pid import PID
+
+    train = demo.raw_water_pump()
+    plant = train.linearize(train.operating_point(flow=demo.RAW_WATER_FLOW_TARGET))
+    loop = Loop(plant, PID(kp, ti))
+    r = step_response(loop)
+    s = step_metrics(r)
+    assert math.isfinite(s.settling_time)
+    # Source: the rule in drivekit.responses: the window reaches ln(200) time constants of the slowest
+    # closed-loop mode (poles of python-control's feedback() with a 6th-order Pade dead time)
+    cl = control.poles(control.feedback(PID(kp, ti).tf * plant.pade(6)))
+    assert r.t[-1] >= math.log(200.0) / np.min(np.abs(cl.real)) - 1e-9
+    # Source: python-control step_info on a long fine simulation of the same loop (6th-order Pade dead time),
+    # within two grid steps plus the Pade error
+    t = np.linspace(0.0, 3.0 * r.t[-1], 30001)
+    ref = control.step_response(control.feedback(PID(kp, ti).tf * plant.pade(6)), t).outputs
+    info = control.step_info(ref, T=t)
+    assert s.settling_time == pytest.approx(info["SettlingTime"], abs=2 * r.t[1] + 0.01 * s.settling_time)
