@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import html
+import math
 from typing import Any
 
 import bqplot as bq
@@ -11,7 +12,7 @@ import numpy as np
 
 from .model import DesignModel
 
-__all__ = ["PALETTE", "View", "array", "figure"]
+__all__ = ["PALETTE", "View", "array", "decade_ticks", "figure"]
 
 #: Colour-blind-safe colours (Okabe & Ito, "Color Universal Design", 2002, from memory).
 PALETTE = {
@@ -32,6 +33,13 @@ FIGURE_HEIGHT = "300px"
 def array(values: Any) -> np.ndarray:
     """Plain float ndarray (python-control's NamedSignal upsets bqplot's trait check)."""
     return np.array(np.asarray(values), dtype=float)
+
+
+def decade_ticks(low: float, high: float, most: int = 6) -> np.ndarray:
+    """Tick values at whole decades covering [low, high], at most ``most`` of them (every k-th decade)."""
+    a, b = math.floor(math.log10(low)), math.ceil(math.log10(high))
+    step = max(1, math.ceil((b - a + 1) / most))
+    return np.array([10.0**e for e in range(a, b + 1, step)])
 
 
 def figure(marks: list[Any], axes: list[Any], title: str, css: str, height: str = FIGURE_HEIGHT) -> bq.Figure:

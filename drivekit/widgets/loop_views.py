@@ -17,7 +17,7 @@ import ipywidgets as w
 import numpy as np
 
 from ..units import ParameterError
-from .base import PALETTE, View, array, figure
+from .base import PALETTE, View, array, decade_ticks, figure
 from .model import DesignModel
 
 __all__ = [
@@ -132,9 +132,7 @@ class StepView(View):
             stroke_width=1.6,
         )
         self.y_axis = bq.Axis(scale=y, side="left", label="measurement", grid_lines="dashed", tick_format=".4g")
-        self.u_axis = bq.Axis(
-            scale=u, side="left", label="controller output", grid_lines="dashed", tick_format=".4g", num_ticks=5
-        )
+        self.u_axis = bq.Axis(scale=u, side="left", label="controller output", grid_lines="dashed", tick_format=".4g")
         self.figure = figure(
             [self.setpoint, self.measurement, self.settling],
             [bq.Axis(scale=t, label="time [s]", grid_lines="dashed"), self.y_axis],
@@ -256,10 +254,10 @@ class BodeView(View):
             x=[1.0], y=[0.0], scales={"x": self.freq_scale, "y": ph}, colors=[PALETTE["vermillion"]], default_size=40
         )
         self.freq_axis = bq.Axis(
-            scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed", tick_format=".0e", num_ticks=6
+            scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed", tick_format=".1g"
         )
         self.freq_axis_2 = bq.Axis(
-            scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed", tick_format=".0e", num_ticks=6
+            scale=self.freq_scale, label="frequency [rad/s]", grid_lines="dashed", tick_format=".1g"
         )
         self.mag_axis = bq.Axis(scale=mag, side="left", label="|L| [dB]", grid_lines="dashed")
         self.mag_figure = figure(
@@ -316,6 +314,9 @@ class BodeView(View):
             self.phase_marks.x = array([c.omega * k for c in crossings] or [f[0]])
             self.phase_marks.y = array(on_curve or [fr.phase_deg[0]])
         self.freq_axis.label = self.freq_axis_2.label = f"frequency [{unit}]"
+        ticks = decade_ticks(float(f[0]), float(f[-1]))
+        if not np.array_equal(np.asarray(self.freq_axis.tick_values), ticks):
+            self.freq_axis.tick_values = self.freq_axis_2.tick_values = ticks
         self.mag_axis.label = "|L| [dB]" if ev.loop is not None else "|G| [dB, SI]"
         m = ev.margins
         if m is None:
@@ -408,12 +409,10 @@ class SensitivityView(View):
             stroke_width=2,
         )
         self.peaks = bq.Scatter(x=[1.0, 1.0], y=[0.0, 0.0], scales={"x": f, "y": m}, colors=[PALETTE["vermillion"]])
+        self.freq_axis = bq.Axis(scale=f, label="frequency [rad/s]", grid_lines="dashed", tick_format=".1g")
         self.figure = figure(
             [self.curves, self.peaks],
-            [
-                bq.Axis(scale=f, label="frequency [rad/s]", grid_lines="dashed", tick_format=".0e", num_ticks=6),
-                bq.Axis(scale=m, side="left", label="magnitude [dB]", grid_lines="dashed"),
-            ],
+            [self.freq_axis, bq.Axis(scale=m, side="left", label="magnitude [dB]", grid_lines="dashed")],
             "Sensitivity",
             "dk-fig-sensitivity",
         )
@@ -430,6 +429,9 @@ class SensitivityView(View):
         with self.curves.hold_sync():
             self.curves.x = array(fr.omega)
             self.curves.y = array(np.vstack([s, t]))
+        ticks = decade_ticks(float(fr.omega[0]), float(fr.omega[-1]))
+        if not np.array_equal(np.asarray(self.freq_axis.tick_values), ticks):
+            self.freq_axis.tick_values = ticks
         with self.peaks.hold_sync():
             self.peaks.x = array([fr.omega[int(np.argmax(s))], fr.omega[int(np.argmax(t))]])
             self.peaks.y = array(_db(np.array([m.ms, m.mt])))
@@ -477,8 +479,8 @@ class RootLocusView(View):
         self.figure = figure(
             [self.branches, self.open_loop, self.current],
             [
-                bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed"),
-                bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed"),
+                bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed", tick_format=".2g"),
+                bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed", tick_format=".2g"),
             ],
             "Root locus (controller gain)",
             "dk-fig-rootlocus",
@@ -576,8 +578,8 @@ class PoleZeroView(View):
         self.figure = figure(
             [self.poles, self.zeros],
             [
-                bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed"),
-                bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed"),
+                bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed", tick_format=".2g"),
+                bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed", tick_format=".2g"),
             ],
             "Poles (x) and zeros (o)",
             "dk-fig-polezero",

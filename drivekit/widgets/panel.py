@@ -85,10 +85,10 @@ class ParameterRow(w.VBox):
         self.entry = w.Text(continuous_update=False, layout=w.Layout(width="96px"))
         self.entry.add_class("dk-entry")
         self.reset_button = w.Button(
-            icon="undo", tooltip="back to the design file value", layout=w.Layout(width="32px")
+            icon="undo", tooltip="back to the design file value", layout=w.Layout(width="40px")
         )
         self.reset_button.add_class("dk-reset")
-        self.lock = w.ToggleButton(value=False, icon="lock", tooltip="lock this value", layout=w.Layout(width="32px"))
+        self.lock = w.ToggleButton(value=False, icon="lock", tooltip="lock this value", layout=w.Layout(width="40px"))
         self.lock.add_class("dk-lock")
         self.message = w.HTML("", layout=w.Layout(display="none"))
         self.message.add_class("dk-message")
@@ -316,7 +316,7 @@ class ParameterPanel(w.VBox):
             self.accordion.selected_index = names.index("controller")
         elif "operating point" in names:
             self.accordion.selected_index = names.index("operating point")
-        self.record_button = w.Button(description="Record to design file", icon="save")
+        self.record_button = w.Button(description="Record to design file", icon="save", layout=w.Layout(width="auto"))
         self.record_button.add_class("dk-record")
         self.status = w.HTML("")
         self.status.add_class("dk-status")

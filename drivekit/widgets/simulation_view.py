@@ -87,9 +87,7 @@ class SimulationView(w.VBox):
             x=[0.0, 1.0], y=[0.0, 0.0], scales={"x": t, "y": z}, colors=[PALETTE["green"]], stroke_width=1.6
         )
         self.y_axis = bq.Axis(scale=y, side="left", label="measured", grid_lines="dashed", tick_format=".4g")
-        self.u_axis = bq.Axis(
-            scale=u, side="left", label="controller output", grid_lines="dashed", tick_format=".4g", num_ticks=5
-        )
+        self.u_axis = bq.Axis(scale=u, side="left", label="controller output", grid_lines="dashed", tick_format=".4g")
         self.z_axis = bq.Axis(scale=z, side="left", label="", grid_lines="dashed", tick_format=".4g")
 
         def time_axis() -> bq.Axis:
