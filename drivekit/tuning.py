@@ -656,8 +656,9 @@ def compare_rules(
     Notes
     -----
     Margins from :func:`drivekit.margins.loop_margins`; setpoint-step
-    metrics from :func:`drivekit.margins.step_metrics` of the loop with the
-    controller on the error (setpoint weights not applied); load IAE from a
+    metrics from :func:`drivekit.margins.step_metrics` of the loop, with the
+    setpoint weights each rule sets (the loop takes the PID's setpoint path);
+    load IAE from a
     unit step at the plant input (:func:`drivekit.margins.load_metrics`).
     A rule that does not apply (e.g. SIMC PID on a first-order plant) gives
     a row with its reason in ``note``.
