@@ -12,7 +12,7 @@ from drivekit.record.notebooks import WIDGET_MIME
 from drivekit.record.record import METADATA_KEY
 
 NOTEBOOKS = Path(__file__).resolve().parents[1] / "notebooks"
-TEMPLATES = ["pump_flow_loop", "conveyor_speed_loop", "bump_test_tuning"]
+TEMPLATES = ["pump_flow_loop", "conveyor_speed_loop", "bump_test_tuning", "slurry_line_checks"]
 DRIVEKIT = Path(sys.executable).parent / "drivekit"
 
 
