@@ -22,6 +22,21 @@ def _model(design_or_model: Design | DesignModel, delay: float) -> DesignModel:
     return DesignModel(design_or_model, delay=delay)
 
 
+def _layout(panel: w.Widget, views: tuple[w.Widget, ...], metrics: w.Widget) -> dict[str, Any]:
+    """AppLayout arguments: the panel on the left, four views in a 2 x 2 grid, the metrics below."""
+    grid = w.GridspecLayout(2, 2, width="100%", grid_gap="6px")
+    for k, view in enumerate(views):
+        grid[k // 2, k % 2] = view
+    return {
+        "left_sidebar": panel,
+        "center": grid,
+        "footer": metrics,
+        "pane_widths": ["400px", 1, 0],
+        "pane_heights": ["0px", "1fr", "260px"],
+        "width": "100%",
+    }
+
+
 class LoopDesignBoard(w.AppLayout):
     """Loop design: panel, step response, Bode, root locus, sensitivity; metrics and cautions below.
 
@@ -50,19 +65,7 @@ class LoopDesignBoard(w.AppLayout):
         self.root_locus = RootLocusView(self.model)
         self.sensitivity = SensitivityView(self.model)
         self.metrics = MetricsTable(self.model)
-        grid = w.GridspecLayout(2, 2, width="100%", grid_gap="6px")
-        grid[0, 0] = self.step
-        grid[0, 1] = self.bode
-        grid[1, 0] = self.root_locus
-        grid[1, 1] = self.sensitivity
-        super().__init__(
-            left_sidebar=self.panel,
-            center=grid,
-            footer=self.metrics,
-            pane_widths=["400px", 1, 0],
-            pane_heights=["0px", "1fr", "260px"],
-            width="100%",
-        )
+        super().__init__(**_layout(self.panel, (self.step, self.bode, self.root_locus, self.sensitivity), self.metrics))
         self.add_class("dk-board")
         self.add_class("dk-loop-board")
 
@@ -86,18 +89,6 @@ class ModelExplorationBoard(w.AppLayout):
         self.pole_zero = PoleZeroView(self.model)
         self.nyquist = NyquistView(self.model)
         self.metrics = MetricsTable(self.model)
-        grid = w.GridspecLayout(2, 2, width="100%", grid_gap="6px")
-        grid[0, 0] = self.operating
-        grid[0, 1] = self.step
-        grid[1, 0] = self.pole_zero
-        grid[1, 1] = self.nyquist
-        super().__init__(
-            left_sidebar=self.panel,
-            center=grid,
-            footer=self.metrics,
-            pane_widths=["400px", 1, 0],
-            pane_heights=["0px", "1fr", "260px"],
-            width="100%",
-        )
+        super().__init__(**_layout(self.panel, (self.operating, self.step, self.pole_zero, self.nyquist), self.metrics))
         self.add_class("dk-board")
         self.add_class("dk-model-board")
