@@ -8,6 +8,7 @@ parameter, and the result says so.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from typing import Any
 
@@ -123,16 +124,77 @@ class RootLocus:
         return rows
 
 
-def _rational(L: Any, pade_order: int) -> tuple[np.ndarray, np.ndarray, int]:
+def _poly(roots: np.ndarray) -> list[complex]:
+    """Monic polynomial coefficients (highest first) from its roots, in plain Python arithmetic."""
+    c = [1.0 + 0j]
+    for r in roots.tolist():
+        c = [a - r * b for a, b in zip([*c, 0j], [0j, *c], strict=True)]
+    return c
+
+
+def _der(c: np.ndarray) -> np.ndarray:
+    """Coefficients of the derivative (highest power first)."""
+    n = len(c) - 1
+    return c[:-1] * np.arange(n, 0, -1) if n > 0 else np.zeros(1)
+
+
+def _sub(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """a - b for coefficient arrays of any lengths (highest power first)."""
+    n = max(len(a), len(b))
+    out = np.zeros(n)
+    out[n - len(a) :] = a
+    out[n - len(b) :] -= b
+    return out
+
+
+def _roots(c: np.ndarray) -> np.ndarray:
+    """Roots of a real polynomial (highest power first) as eigenvalues of its companion matrix, like numpy.roots."""
+    nz = np.flatnonzero(c)
+    if not len(nz):
+        return np.zeros(0, complex)
+    zero = len(c) - 1 - nz[-1]
+    c = c[nz[0] : nz[-1] + 1]
+    n = len(c) - 1
+    if n < 1:
+        return np.zeros(zero, complex)
+    comp = np.zeros((n, n))
+    comp[0] = -c[1:] / c[0]
+    comp.flat[n :: n + 1] = 1.0
+    r = np.linalg.eigvals(comp).astype(complex)
+    return np.concatenate([r, np.zeros(zero, complex)]) if zero else r
+
+
+def _value(c: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Polynomial (highest power first) at the points x, by Horner's rule."""
+    y = np.full(np.shape(x), c[0], dtype=np.result_type(c, x))
+    for a in c[1:]:
+        y = y * x + a
+    return y
+
+
+def _rational(L: Any, pade_order: int) -> tuple[np.ndarray, np.ndarray, int, np.ndarray, np.ndarray]:
+    """Numerator, denominator (monic), Pade order used, open-loop zeros and poles."""
     model = as_linear(L.open_loop if isinstance(L, Loop) else L)
     z, p, k = zpk(model)
-    num = k * np.real(np.poly(z)) if len(z) else np.array([k])
-    den = np.real(np.poly(p)) if len(p) else np.array([1.0])
     used = 0
     if model.delay > 0:
-        pn, pd = pade_coefficients(model.delay, pade_order)
-        num, den, used = np.polymul(num, pn), np.polymul(den, pd), pade_order
-    return num, den, used
+        zp, pp = _pade_roots(pade_order)
+        z = np.concatenate([z, zp / model.delay])
+        p = np.concatenate([p, pp / model.delay])
+        k = k * (-1.0) ** pade_order
+        used = pade_order
+    num = k * np.array(_poly(z)).real
+    den = np.array(_poly(p)).real
+    return num, den, used, z, p
+
+
+@functools.lru_cache(maxsize=16)
+def _pade_roots(order: int) -> tuple[np.ndarray, np.ndarray]:
+    """Zeros and poles of the Pade approximation of e^{-s} (unit dead time); scale by 1/delay."""
+    _, pd = pade_coefficients(1.0, order)
+    poles = np.roots(pd)
+    # the numerator is the denominator at -s: zeros mirror the poles
+    return -poles, poles
 
 
 def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndarray:
@@ -148,149 +210,206 @@ def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndar
     return np.linalg.eigvals(comp)
 
 
-def _follow(roots: np.ndarray) -> np.ndarray:
-    """Order roots so that each column moves continuously from one gain to the next.
+def _match(prev: np.ndarray, new: np.ndarray, ahead: np.ndarray | None = None) -> np.ndarray:
+    """Column order of each row of ``new`` that follows the same row of ``prev`` (nearest, no root twice).
 
-    Nearest neighbours between successive gains are found for all gains at
-    once; where two roots claim the same neighbour the optimal assignment
-    decides. The matchings are then chained from the first gain.
+    With ``ahead`` (a predicted position for each root of ``prev``) a root
+    may also be matched near its prediction; the nearer of the two counts.
     """
-    G, n = roots.shape
-    if G < 2 or n < 2:
-        return roots.copy()
-    cost = np.abs(roots[:-1, :, None] - roots[1:, None, :])
+    cost = np.abs(prev[:, :, None] - new[:, None, :])
+    if ahead is not None:
+        cost = np.fmin(cost, np.abs(ahead[:, :, None] - new[:, None, :]))
     match = np.argmin(cost, axis=2)
     srt = np.sort(match, axis=1)
-    clash = np.nonzero(np.any(srt[:, 1:] == srt[:, :-1], axis=1))[0]
-    for i in clash:
+    for i in np.nonzero(np.any(srt[:, 1:] == srt[:, :-1], axis=1))[0]:
         match[i] = scipy.optimize.linear_sum_assignment(cost[i])[1]
+    return match
+
+
+def _follow(roots: np.ndarray, guess: np.ndarray | None = None) -> np.ndarray:
+    """Column order (G, n) of each gain's roots so that each column moves continuously with the gain.
+
+    Each gain's roots are matched to the next gain's nearest roots, for all
+    gains at once, where ``guess`` (the roots predicted at the next gain from
+    each row, same column order as ``roots``) says where to look; where two
+    roots claim the same neighbour the optimal assignment decides. The
+    matchings are then chained from the first gain.
+    """
+    G, n = roots.shape
     order = np.empty((G, n), dtype=int)
+    order[:] = np.arange(n)
+    if G < 2 or n < 2:
+        return order
+    ahead = None if guess is None else np.where(np.isfinite(guess[:-1]), guess[:-1], roots[:-1])
+    match = _match(roots[:-1], roots[1:], ahead)
     cur = list(range(n))
-    order[0] = cur
     for i, row in enumerate(match.tolist(), start=1):
         cur = [row[j] for j in cur]
         order[i] = cur
-    return np.take_along_axis(roots, order, axis=1)
+    return order
 
 
-_EXACT_STRIDE = 6  # closed-loop poles by eigenvalues at every 6th gain, the others by Newton from there
-_NEWTON_STEPS = 4
+def _slopes(num: np.ndarray, den: np.ndarray, roots: np.ndarray, gains: np.ndarray) -> np.ndarray:
+    """Branch slopes ds/dK = -N(s) / (D'(s) + K N'(s)) at the roots (Ogata 5th ed. §6-2)."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        return -_value(num, roots) / (_value(_der(den), roots) + gains[:, None] * _value(_der(num), roots))
 
 
-def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndarray:
-    """Continuous branches of den + K num = 0 for sorted gains K.
+_EXACT_STRIDE = 12  # closed-loop poles by eigenvalues at every 12th gain, the others by Newton from there
+_NEWTON_STEPS = 3
+_HARD_REACH = 1  # grid gains on each side of a break point solved by eigenvalues
 
-    Eigenvalues of the companion matrices at every ``_EXACT_STRIDE``-th gain;
-    in between, the branch interpolated in K (cubic Hermite with the branch
-    slopes, Ogata 5th ed. §6-2 for dK/ds) and polished by Newton steps on
-    the polynomial. A gain whose polished roots fail a check (Newton step not
-    at round-off, two roots merged, or the root sum off the coefficient by
-    Vieta's formula) is solved by eigenvalues as well.
-    """
-    G = len(gains)
-    if G <= 3 * _EXACT_STRIDE:
-        return _follow(_roots_batch(num, den, gains))
-    exact = np.unique(np.concatenate([np.arange(0, G, _EXACT_STRIDE), [G - 1]]))
-    coarse = _follow(_roots_batch(num, den, gains[exact]))
-    out = np.empty((G, coarse.shape[1]), complex)
-    out[exact] = coarse
-    rest = np.setdiff1d(np.arange(G), exact)
-    j = np.searchsorted(exact, rest) - 1
-    ka, kb = gains[exact[j]], gains[exact[j + 1]]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        frac = np.where(kb > ka, (gains[rest] - ka) / (kb - ka), 0.0)
-    # cubic Hermite in K with the branch slopes ds/dK = -N(s) / (D'(s) + K N'(s)) at the exact gains
-    ke = gains[exact][:, None]
-    with np.errstate(divide="ignore", invalid="ignore"):
-        slope = -np.polyval(num, coarse) / (
-            np.polyval(np.polyder(den), coarse) + ke * np.polyval(np.polyder(num), coarse)
-        )
-    t = frac[:, None]
-    width = (kb - ka)[:, None]
-    z = (
-        (2 * t**3 - 3 * t**2 + 1) * coarse[j]
-        + (t**3 - 2 * t**2 + t) * width * slope[j]
-        + (-2 * t**3 + 3 * t**2) * coarse[j + 1]
-        + (t**3 - t**2) * width * slope[j + 1]
-    )
-    z = np.where(np.isfinite(z), z, coarse[j])
-    nump = np.concatenate([np.zeros(len(den) - len(num)), num])
-    coeffs = den[None, :] + gains[rest, None] * nump[None, :]
-    coeffs = coeffs / coeffs[:, :1]
-    step = np.zeros_like(z)
-    for _ in range(_NEWTON_STEPS):
-        p = np.ones_like(z)
-        dp = np.zeros_like(z)
-        for c in coeffs[:, 1:].T:
-            dp = dp * z + p
-            p = p * z + c[:, None]
+
+def _newton(z: np.ndarray, coeffs: np.ndarray, steps: int) -> tuple[np.ndarray, np.ndarray]:
+    """Newton steps on monic polynomials (rows of coeffs) at every root guess of the same row; roots and last step."""
+    cols = [coeffs[:, i : i + 1] for i in range(2, coeffs.shape[1])]
+    step = z
+    for _ in range(steps):
+        p = z + coeffs[:, 1:2]
+        dp = np.ones_like(z)
+        for c in cols:
+            dp *= z
+            dp += p
+            p *= z
+            p += c
         with np.errstate(divide="ignore", invalid="ignore"):
             step = p / dp
         z = z - step
+    return z, step
+
+
+def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any = ()) -> np.ndarray:
+    """Continuous branches of den + K num = 0 for sorted gains K.
+
+    Eigenvalues of the companion matrices at every ``_EXACT_STRIDE``-th gain
+    and at the gains nearest each of the ``hard`` gains (break points, where
+    branches meet and Newton's method converges slowly); in between, the
+    branch interpolated in ln K (cubic Hermite with the branch slopes, Ogata
+    5th ed. §6-2 for dK/ds) and polished by Newton steps on the polynomial.
+    A gain whose polished roots fail a check (Newton step not at round-off,
+    two roots merged, or the root sum off the coefficient by Vieta's
+    formula) is solved by eigenvalues as well.
+    """
+    G = len(gains)
+    if G <= 3 * _EXACT_STRIDE:
+        roots = _roots_batch(num, den, gains)
+        return np.take_along_axis(roots, _follow(roots), axis=1)
+    is_exact = np.zeros(G, bool)
+    is_exact[::_EXACT_STRIDE] = True
+    is_exact[-1] = True
+    if len(hard):
+        near = np.searchsorted(gains, np.asarray(hard, float))
+        for off in range(-_HARD_REACH, _HARD_REACH + 1):
+            is_exact[np.clip(near + off, 0, G - 1)] = True
+    exact = np.nonzero(is_exact)[0]
+    rest = np.nonzero(~is_exact)[0]
+    ke = gains[exact]
+    roots = _roots_batch(num, den, ke)
+    slope = _slopes(num, den, roots, ke)
+    # first-order prediction of each root at the next exact gain (in ln K above K = 0) guides the matching
+    ahead = np.empty_like(roots)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        grow = np.where(ke[:-1] > 0, ke[:-1] * np.log(ke[1:] / np.where(ke[:-1] > 0, ke[:-1], 1.0)), ke[1:])
+        ahead[:-1] = roots[:-1] + grow[:, None] * slope[:-1]
+    ahead[-1] = roots[-1]
+    order = _follow(roots, ahead)
+    coarse = np.take_along_axis(roots, order, axis=1)
+    slope = np.take_along_axis(slope, order, axis=1)
+    out = np.empty((G, coarse.shape[1]), complex)
+    out[exact] = coarse
+    j = np.searchsorted(exact, rest) - 1
+    with np.errstate(divide="ignore", invalid="ignore"):
+        # cubic Hermite in u = ln K (slopes K ds/dK) where the interval starts above K = 0, else in K
+        logk = ke[j] > 0
+        u = np.where(gains > 0, np.log(np.where(gains > 0, gains, 1.0)), 0.0)
+        ua = np.where(logk, u[exact[j]], ke[j])
+        ub = np.where(logk, u[exact[j + 1]], ke[j + 1])
+        x = np.where(logk, u[rest], gains[rest])
+        sa = slope[j] * np.where(logk, ke[j], 1.0)[:, None]
+        sb = slope[j + 1] * np.where(logk, ke[j + 1], 1.0)[:, None]
+    t = ((x - ua) / (ub - ua))[:, None]
+    t2, t3 = t * t, t * t * t
+    width = (ub - ua)[:, None]
+    za, zb = coarse[j], coarse[j + 1]
+    z = za + (3 * t2 - 2 * t3) * (zb - za) + width * ((t3 - 2 * t2 + t) * sa + (t3 - t2) * sb)
+    z = np.where(np.isfinite(z), z, za + t * (zb - za))
+    nump = np.concatenate([np.zeros(len(den) - len(num)), num])
+    coeffs = den[None, :] + gains[rest, None] * nump[None, :]
+    coeffs = coeffs / coeffs[:, :1]
+    z, step = _newton(z, coeffs, _NEWTON_STEPS)
+    slow = np.nonzero(~(np.max(np.abs(step), axis=1) <= 1e-10 * (1.0 + np.max(np.abs(z), axis=1))))[0]
+    if len(slow):  # a few more steps where the guess was poor
+        z[slow], step[slow] = _newton(z[slow], coeffs[slow], _NEWTON_STEPS)
+    absz = np.abs(z)
     with np.errstate(invalid="ignore"):
-        scale = 1.0 + np.max(np.abs(z), axis=1)
-    gap = np.where(np.eye(z.shape[1], dtype=bool)[None], np.inf, np.abs(z[:, :, None] - z[:, None, :]))
+        scale = 1.0 + np.max(absz, axis=1)
+    n = z.shape[1]
+    gap = np.abs(z[:, :, None] - z[:, None, :])
+    gap[:, np.arange(n), np.arange(n)] = np.inf
     bad = (
-        ~np.all(np.isfinite(z), axis=1)
+        ~np.isfinite(scale)
         | (np.max(np.abs(step), axis=1) > 1e-10 * scale)
         | (np.min(gap, axis=(1, 2)) < 1e-6 * scale)
-        | (np.abs(np.sum(z, axis=1) + coeffs[:, 1]) > 1e-9 * scale * z.shape[1])
+        | (np.abs(np.sum(z, axis=1) + coeffs[:, 1]) > 1e-9 * scale * n)
     )
     if np.any(bad):
         redo = _roots_batch(num, den, gains[rest[bad]])
         # order the recomputed roots like their interpolated guess
-        for r, guess in zip(np.nonzero(bad)[0], redo, strict=True):
-            col = scipy.optimize.linear_sum_assignment(np.abs(z[r][:, None] - guess[None, :]))[1]
-            z[r] = guess[col]
+        guess = np.where(np.isfinite(z[bad]), z[bad], 0.0)
+        z[bad] = np.take_along_axis(redo, _match(guess, redo), axis=1)
     out[rest] = z
     return out
 
 
 def _imaginary_crossings(num: np.ndarray, den: np.ndarray) -> tuple[list[float], list[float]]:
-    """Gains K > 0 and frequencies w >= 0 where den(jw) + K num(jw) = 0."""
+    """Gains K > 0 and frequencies w >= 0 where den(jw) + K num(jw) = 0.
 
-    def on_axis(c: np.ndarray) -> np.ndarray:
-        deg = len(c) - 1
-        return np.array([c[i] * (1j) ** (deg - i) for i in range(len(c))])
+    With P(jw) = Pr(w) + j Pi(w) (even powers in Pr, odd in Pi), K is real
+    where Im(D(jw) conj N(jw)) = Di Nr - Dr Ni = 0; this is odd in w, so its
+    roots other than w = 0 are those of a polynomial in x = w**2.
+    """
 
-    dw, nw = on_axis(den), on_axis(num)
-    q = np.polymul(dw, np.conj(nw)).imag
-    q = np.trim_zeros(q, "f")
-    freqs = [0.0]
-    if len(q) > 1:
-        r = np.roots(q)
-        freqs += [float(x.real) for x in r if abs(x.imag) <= 1e-7 * max(1.0, abs(x)) and x.real > 0]
-    gains, omegas = [], []
-    for w in freqs:
-        nv, dv = np.polyval(num, 1j * w), np.polyval(den, 1j * w)
-        if abs(nv) < 1e-300:
-            continue
-        kk = -dv / nv
-        if kk.real > 0 and abs(kk.imag) <= 1e-6 * abs(kk):
-            gains.append(float(kk.real))
-            omegas.append(w)
+    def parts(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        # coefficients in x = w**2 of Pr(w) and of Pi(w)/w, highest first
+        power = len(c) - 1 - np.arange(len(c))
+        signed = np.where(power % 4 < 2, c, -c)
+        return signed[power % 2 == 0], signed[power % 2 == 1]
+
+    dr, di = parts(den)
+    nr, ni = parts(num)
+    q = _sub(
+        np.convolve(di, nr) if len(di) and len(nr) else np.zeros(1), np.convolve(dr, ni) if len(ni) else np.zeros(1)
+    )
+    freqs = np.zeros(1)
+    x = _roots(q)
+    x = x[(np.abs(x.imag) <= 1e-7 * np.maximum(1.0, np.abs(x))) & (x.real > 0)].real
+    if len(x):
+        # one Newton step on q in x polishes the eigenvalue roots
+        with np.errstate(divide="ignore", invalid="ignore"):
+            fix = _value(q, x) / _value(_der(q), x)
+        x = np.where(np.isfinite(fix) & (np.abs(fix) < 1e-6 * x), x - fix, x)
+        freqs = np.concatenate([freqs, np.sqrt(x)])
+    s = 1j * freqs
+    nv, dv = _value(num, s), _value(den, s)
+    ok = np.abs(nv) >= 1e-300
+    with np.errstate(divide="ignore", invalid="ignore"):
+        kk = -dv / np.where(ok, nv, 1.0)
+    ok &= (kk.real > 0) & (np.abs(kk.imag) <= 1e-6 * np.abs(kk))
+    gains, omegas = kk.real[ok], freqs[ok]
     order = np.argsort(gains)
-    return [gains[i] for i in order], [omegas[i] for i in order]
+    return gains[order].tolist(), omegas[order].tolist()
 
 
 def _break_points(num: np.ndarray, den: np.ndarray) -> list[BreakPoint]:
     """Real roots of N D' - D N' = 0 with a real positive gain K = -D/N (on the locus)."""
-    eq = np.polysub(np.polymul(num, np.polyder(den)), np.polymul(den, np.polyder(num)))
-    eq = np.trim_zeros(eq, "f")
-    if len(eq) < 2:
-        return []
-    out = []
-    for r in np.roots(eq):
-        if abs(r.imag) > 1e-7 * max(1.0, abs(r)):
-            continue
-        s = float(r.real)
-        nv = np.polyval(num, s)
-        if nv == 0:
-            continue
-        kk = -np.polyval(den, s) / nv
-        if kk > 0:
-            out.append(BreakPoint(s, float(kk)))
-    return sorted(out, key=lambda b: b.s)
+    r = _roots(_sub(np.convolve(num, _der(den)), np.convolve(den, _der(num))))
+    s = r[np.abs(r.imag) <= 1e-7 * np.maximum(1.0, np.abs(r))].real
+    nv = _value(num, s)
+    ok = nv != 0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        kk = -_value(den, s) / np.where(ok, nv, 1.0)
+    ok &= kk > 0
+    return [BreakPoint(a, b) for a, b in sorted(zip(s[ok].tolist(), kk[ok].tolist(), strict=True))]
 
 
 def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150) -> RootLocus:
@@ -326,8 +445,9 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
     >>> [round(b.s, 12) for b in rl.break_points], round(rl.break_points[0].gain, 12)
     ([-0.5], 0.25)
     """
-    num, den, used = _rational(L, pade_order)
-    n, m = len(den) - 1, len(np.trim_zeros(num, "f")) - 1
+    num, den, used, z_ol, p_ol = _rational(L, pade_order)
+    lead = np.flatnonzero(num)
+    n, m = len(den) - 1, (len(num) - 1 - int(lead[0]) if len(lead) else -1)
     if n < 1:
         raise ParameterError("`L`: has no poles, so there is no root locus")
     cross_k, cross_w = _imaginary_crossings(num, den)
@@ -341,13 +461,12 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
         if k.ndim != 1 or np.any(k < 0) or not np.all(np.isfinite(k)):
             raise ParameterError("`gains`: expected a 1-D array of finite gain factors >= 0")
         k = np.sort(k)
-    branches = _locus_roots(num, den, k)
-    p_ol = np.roots(den)
-    z_ol = np.roots(np.trim_zeros(num, "f")) if m > 0 else np.zeros(0, complex)
+    branches = _locus_roots(num, den, k, [b.gain for b in breaks])
     q = n - m
     centroid = float((np.sum(p_ol).real - np.sum(z_ol).real) / q) if q > 0 else math.nan
     angles = tuple(float((2 * i + 1) * 180.0 / q) for i in range(q)) if q > 0 else ()
-    now = _roots_batch(num, den, np.array([1.0]))[0]
+    at_one = np.nonzero(k == 1.0)[0]
+    now = branches[at_one[0]] if len(at_one) else _roots_batch(num, den, np.array([1.0]))[0]
     now = now[np.lexsort((np.abs(now.imag), np.abs(now)))]
     poles = tuple(
         ClosedLoopPole(complex(x), float(-x.real / abs(x)) if abs(x) > 0 else 1.0, float(abs(x)))

@@ -83,3 +83,38 @@ def test_bad_input():
         root_locus(control.tf([1.0], [1.0, 1.0]), gains=[-1.0, 2.0])
     with pytest.raises(ParameterError, match="`order`"):
         root_locus(as_linear(control.tf([1.0], [1.0, 1.0]), delay=1.0), pade_order=0)
+
+
+def _same_roots(ours, theirs, rtol):
+    """Largest distance between two root sets after the best one-to-one pairing, relative to 1 + max |root|."""
+    cost = np.abs(ours[:, None] - theirs[None, :])
+    i, j = scipy.optimize.linear_sum_assignment(cost)
+    return np.max(cost[i, j]) / (1.0 + np.max(np.abs(theirs))) <= rtol
+
+
+@pytest.mark.parametrize(
+    ("num", "den", "delay"),
+    [
+        # a pump flow loop like the demo: PI (Ti = 3.8 s) on four lags and 0.2 s dead time
+        (np.polymul([3.8, 1.0], [2.4]), np.polymul([3.8, 0.0], np.poly([-1 / 3.28, -1.0, -20.0, -155.0])), 0.2),
+        # lightly damped plant with an integrator, break points on both sides of a zero
+        ([1.0, 2.0], [1.0, 1.5, 4.0, 0.0], 0.0),
+        # unstable open loop with dead time
+        ([2.0, 1.0], np.polymul([1.0, -0.3], [0.5, 1.0, 0.0]), 0.4),
+    ],
+)
+def test_every_gain_against_python_control_root_locus_map(num, den, delay):
+    g = control.tf(num, den)
+    model = as_linear(g, delay=delay)
+    rl = root_locus(model)
+    assert len(rl.gains) > 150
+    # Source: python-control root_locus_map (roots of den + K num by numpy) with the same 3rd-order Pade
+    pade = control.tf(*control.pade(delay, 3)) if delay else 1
+    loci = np.asarray(control.root_locus_map(g * pade, rl.gains).loci)
+    # a double root at a break point is only defined to about the square root of the machine epsilon
+    breaks = [b.gain for b in rl.break_points]
+    for k, ours, theirs in zip(rl.gains, rl.branches, loci, strict=True):
+        assert _same_roots(ours, theirs, 1e-6 if k in breaks else 1e-10), k
+    # every branch moves continuously: successive points are near compared with the size of the roots there
+    step = np.abs(np.diff(rl.branches, axis=0)) / (1.0 + np.max(np.abs(rl.branches[1:]), axis=1, keepdims=True))
+    assert np.max(step) < 0.2
