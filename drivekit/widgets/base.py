@@ -12,7 +12,7 @@ import numpy as np
 
 from .model import DesignModel
 
-__all__ = ["PALETTE", "View", "array", "decade_ticks", "figure"]
+__all__ = ["PALETTE", "View", "array", "decade_ticks", "figure", "nice_ticks", "set_ticks"]
 
 #: Colour-blind-safe colours (Okabe & Ito, "Color Universal Design", 2002, from memory).
 PALETTE = {
@@ -40,6 +40,23 @@ def decade_ticks(low: float, high: float, most: int = 6) -> np.ndarray:
     a, b = math.floor(math.log10(low)), math.ceil(math.log10(high))
     step = max(1, math.ceil((b - a + 1) / most))
     return np.array([10.0**e for e in range(a, b + 1, step)])
+
+
+def nice_ticks(low: float, high: float, most: int = 6) -> np.ndarray:
+    """Round tick values (steps of 1, 2, 2.5 or 5 times a power of ten) covering [low, high], at most about ``most``."""
+    if not (math.isfinite(low) and math.isfinite(high)) or high <= low:
+        return np.array([low]) if math.isfinite(low) else np.zeros(0)
+    raw = (high - low) / max(most, 1)
+    power = 10.0 ** math.floor(math.log10(raw))
+    step = next(m * power for m in (1.0, 2.0, 2.5, 5.0, 10.0) if m * power >= raw)
+    first = math.ceil(low / step - 1e-9) * step
+    return np.round(np.arange(first, high + 1e-9 * step, step), 12)
+
+
+def set_ticks(axis: bq.Axis, ticks: np.ndarray) -> None:
+    """Give ``axis`` these tick values, sending nothing when they are already set."""
+    if not np.array_equal(np.asarray(axis.tick_values), ticks):
+        axis.tick_values = ticks
 
 
 def figure(marks: list[Any], axes: list[Any], title: str, css: str, height: str = FIGURE_HEIGHT) -> bq.Figure:
@@ -86,7 +103,11 @@ class View(w.VBox):
 
     def say(self, text: str) -> None:
         """Show a plain-words note about the drawn result (``""`` clears it)."""
-        self.note.value = f"<span style='color:#555'>{html.escape(text)}</span>" if text else ""
+        self.say_html(html.escape(text))
+
+    def say_html(self, markup: str) -> None:
+        """Show a note already written as HTML (the caller escapes anything it did not write itself)."""
+        self.note.value = f"<span style='color:#555'>{markup}</span>" if markup else ""
 
     def _warn(self, text: str) -> None:
         self.message.value = f"<span class='dk-error' style='color:#b2182b'>{html.escape(text)}</span>" if text else ""

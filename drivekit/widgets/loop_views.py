@@ -16,8 +16,8 @@ import bqplot as bq
 import ipywidgets as w
 import numpy as np
 
-from ..units import ParameterError
-from .base import PALETTE, View, array, decade_ticks, figure
+from ..units import ParameterError, pretty_unit
+from .base import PALETTE, View, array, decade_ticks, figure, nice_ticks, set_ticks
 from .model import DesignModel
 
 __all__ = [
@@ -116,7 +116,6 @@ class StepView(View):
             colors=colors,
             stroke_width=2,
             labels=["setpoint step", "load step"],
-            display_legend=True,
         )
         self.setpoint = bq.Lines(
             x=[0.0, 1.0], y=[0.0, 0.0], scales={"x": t, "y": y}, colors=[PALETTE["grey"]], line_style="dashed"
@@ -164,7 +163,7 @@ class StepView(View):
         # one shared time row when both responses use the same grid (less to send to the page)
         t = array(sp.t) if same_grid else array(np.vstack([sp.t, ld.t]))
         ys = np.vstack([y0 + r_step * sp.y, y0 + d_step * ld.y]) * scale
-        limits = result.design.output_span or getattr(result.design.controller, "output_limits", None)
+        limits = getattr(result.design.controller, "output_limits", None) or result.design.output_span
         lo, hi = limits if limits is not None else (math.nan, math.nan)
         ones = np.ones_like(sp.t)
         us = np.vstack([u0 + r_step * sp.u, u0 + d_step * ld.u, lo * ones, hi * ones])
@@ -182,13 +181,18 @@ class StepView(View):
         with self.output.hold_sync():
             self.output.x = array(sp.t) if same_grid else array(np.vstack([sp.t, ld.t, sp.t, sp.t]))
             self.output.y = array(us)
-        unit = plant.output_display_unit.replace("**3", "³")
+        finite = us[np.isfinite(us)]
+        if finite.size:
+            set_ticks(self.u_axis, nice_ticks(float(finite.min()), float(finite.max()), 5))
+        unit = pretty_unit(plant.output_display_unit)
         self.y_axis.label = f"{plant.output_name} [{unit}]"
         self.u_axis.label = f"controller output [{plant.input_unit}]"
         if ts:
-            self.say(
-                f"setpoint step {r_step * scale:.3g} {unit}, load step {d_step:.3g} {plant.input_unit} at the "
-                f"plant input; settling (2 %) {ts:.3g} s"
+            sp = html.escape(f"setpoint step {r_step * scale:.3g} {unit}")
+            ld = html.escape(f"load step {d_step:.3g} {plant.input_unit} at the plant input")
+            self.say_html(
+                f"<span style='color:{PALETTE['blue']}'>&#9644; {sp}</span>, "
+                f"<span style='color:{PALETTE['vermillion']}'>&#9644; {ld}</span>; settling (2 %) {ts:.3g} s"
             )
         else:
             self.say(f"the closed loop does not settle: {ev.margins.verdict}")
@@ -476,12 +480,11 @@ class RootLocusView(View):
         self.open_loop = bq.Scatter(x=[0.0], y=[0.0], scales=sc, colors=[PALETTE["grey"]], marker="square")
         self.current = bq.Scatter(x=[0.0], y=[0.0], scales=sc, colors=[PALETTE["vermillion"]], marker="cross")
         self.branches.on_element_click(self._on_click)
+        self.x_axis = bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed", tick_format=".2g")
+        self.y_axis = bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed", tick_format=".2g")
         self.figure = figure(
             [self.branches, self.open_loop, self.current],
-            [
-                bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed", tick_format=".2g"),
-                bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed", tick_format=".2g"),
-            ],
+            [self.x_axis, self.y_axis],
             "Root locus (controller gain)",
             "dk-fig-rootlocus",
         )
@@ -515,6 +518,8 @@ class RootLocusView(View):
                 x_scale.min, x_scale.max = -lim, 0.5 * lim
             with y_scale.hold_sync():
                 y_scale.min, y_scale.max = -lim, lim
+            set_ticks(self.x_axis, nice_ticks(-lim, 0.5 * lim, 5))
+            set_ticks(self.y_axis, nice_ticks(-lim, lim, 5))
         self.say(f"{rl.note}; click a branch to set the controller gain there")
 
     def set_gain_at(self, index: int) -> None:
@@ -575,12 +580,11 @@ class PoleZeroView(View):
         sc = {"x": x, "y": y}
         self.poles = bq.Scatter(x=[0.0], y=[0.0], scales=sc, marker="cross", colors=[PALETTE["vermillion"]])
         self.zeros = bq.Scatter(x=[0.0], y=[0.0], scales=sc, marker="circle", colors=[PALETTE["blue"]], fill=False)
+        self.x_axis = bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed", tick_format=".2g")
+        self.y_axis = bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed", tick_format=".2g")
         self.figure = figure(
             [self.poles, self.zeros],
-            [
-                bq.Axis(scale=x, label="real [1/s]", grid_lines="dashed", tick_format=".2g"),
-                bq.Axis(scale=y, side="left", label="imaginary [1/s]", grid_lines="dashed", tick_format=".2g"),
-            ],
+            [self.x_axis, self.y_axis],
             "Poles (x) and zeros (o)",
             "dk-fig-polezero",
         )
@@ -606,6 +610,9 @@ class PoleZeroView(View):
         with self.zeros.hold_sync():
             self.zeros.x = array(zeros.real if zeros.size else [math.nan])
             self.zeros.y = array(zeros.imag if zeros.size else [math.nan])
+        points = np.concatenate([poles, zeros, [0.0]])
+        set_ticks(self.x_axis, nice_ticks(float(np.min(points.real)), float(np.max(points.real)), 5))
+        set_ticks(self.y_axis, nice_ticks(float(np.min(points.imag)), float(np.max(points.imag)), 5))
         body = "".join(
             f"<tr><td>{p.real:.4g}{'' if abs(p.imag) < 1e-12 else f' ± {abs(p.imag):.4g}j'}</td>"
             f"<td>{zeta:.3g}</td><td>{wn:.4g}</td><td>{html.escape(stage)}</td></tr>"

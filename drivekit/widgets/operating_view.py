@@ -10,7 +10,7 @@ import bqplot as bq
 import ipywidgets as w
 import numpy as np
 
-from .base import PALETTE, View, array, figure
+from .base import PALETTE, View, array, figure, nice_ticks, set_ticks
 from .model import DesignModel
 
 __all__ = ["OperatingPointView"]
@@ -55,8 +55,9 @@ class OperatingPointView(View):
         self.point = bq.Scatter(
             x=[0.0], y=[0.0], scales=sc, colors=[PALETTE["black"]], default_size=80, marker="circle"
         )
+        self.flow_axis = bq.Axis(scale=x, label="flow [m³/h]", grid_lines="dashed")
         axes = [
-            bq.Axis(scale=x, label="flow [m³/h]", grid_lines="dashed"),
+            self.flow_axis,
             bq.Axis(scale=y, side="left", label="head [m]", grid_lines="dashed"),
         ]
         marks = [self.pump_lines, self.system_line, self.point_line, self.min_flow_line, self.point]
@@ -74,6 +75,7 @@ class OperatingPointView(View):
         self.say("")
         q = array(c.flow) * _M3H
         top = float(np.nanmax(c.pump_head)) * 1.05
+        set_ticks(self.flow_axis, nice_ticks(0.0, float(np.nanmax(q))))
         with self.pump_lines.hold_sync():
             self.pump_lines.x = q
             self.pump_lines.y = array(c.pump_head)
