@@ -5,7 +5,6 @@ from __future__ import annotations
 import dataclasses
 import functools
 import math
-from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -376,7 +375,7 @@ def _transmission_zeros(a: np.ndarray, b: np.ndarray, c: np.ndarray, d: np.ndarr
     return _sort_slowest_first(vals[finite])
 
 
-def _factors(roots: Sequence[complex]) -> tuple[list[str], float]:
+def _factors(roots: Any) -> tuple[list[str], float]:
     """Time-constant factors of a set of roots and the product of their -root scale."""
     factors: list[str] = []
     scale = 1.0

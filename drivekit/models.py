@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
@@ -55,7 +55,7 @@ def transfer_function_model(num: Any, den: Any, dead_time: float = 0.0) -> Linea
     return _linear(list(num) if num.size else [0.0], list(den), float(dead_time), {})
 
 
-def _linear(num: list[float], den: list[float], delay: float, names: dict[str, str]) -> LinearModel:
+def _linear(num: list[float], den: list[float], delay: float, names: dict[str, Any]) -> LinearModel:
     """Controllable-canonical state-space of num/den (proper), as a LinearModel."""
     den_a = np.asarray(den, dtype=float)
     num_a = np.zeros(len(den_a))
@@ -76,7 +76,7 @@ def _linear(num: list[float], den: list[float], delay: float, names: dict[str, s
     return LinearModel(A, B, C, D, delay=delay, **names)
 
 
-def _names(model: Any) -> dict[str, str]:
+def _names(model: Any) -> dict[str, Any]:
     return {
         "input_name": model.input_name,
         "input_unit": model.input_unit,
@@ -93,6 +93,10 @@ class _ProcessModel:
     output_name: str = "output"
     output_unit: str = ""
     output_display_unit: str = ""
+
+    if TYPE_CHECKING:  # declared by each model's own fields
+        gain: Any
+        dead_time: Any
 
     def __post_init__(self) -> None:
         convert_fields(self)

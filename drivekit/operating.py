@@ -351,7 +351,7 @@ def _state_vector(train: DriveTrain, supply: float, w_l: float, q: float) -> np.
     if lay.drive is not None:
         x[lay.drive] = supply
     if lay.current is not None:
-        x[lay.current] = float(train.motor.current(supply, w_m))  # type: ignore[union-attr]
+        x[lay.current] = float(train.motor.current(supply, w_m))  # type: ignore[union-attr,call-arg]
     x[lay.motor_speed] = w_m
     if lay.machine_speed is not None:
         x[lay.machine_speed] = w_l

@@ -14,6 +14,7 @@ __all__ = ["FlowMeter", "PressureSensor", "SpeedSensor"]
 class _Sensor:
     time_constant: Any = param("s", "first-order lag", default=0.0, minimum=0.0)
     dead_time: Any = param("s", "dead time", default=0.0, minimum=0.0)
+    name: str = "sensor"
 
     #: The drive-train quantity this sensor reads.
     quantity = ""

@@ -17,6 +17,7 @@ maximum sensitivity Ms stays within a target.
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from collections.abc import Callable, Sequence
 from typing import Any
@@ -670,7 +671,7 @@ def compare_rules(
     if not isinstance(plant, LinearModel):
         raise ParameterError(f"`plant`: got {type(plant).__name__}, expected a drivekit LinearModel")
     jobs: list[tuple[str, Callable[[], PID]]] = [
-        (rule.__name__, (lambda rule=rule: rule(plant, controller=controller))) for rule in rules
+        (rule.__name__, functools.partial(rule, plant, controller=controller)) for rule in rules
     ]
     if max_ms is not None and controller == "PI":
         jobs.append((f"robust_pi (Ms {max_ms:g})", lambda: robust_pi(plant, max_ms)))

@@ -36,7 +36,7 @@ __all__ = [
     "ureg",
 ]
 
-ureg = pint.UnitRegistry()
+ureg: pint.UnitRegistry = pint.UnitRegistry()
 ureg.formatter.default_format = "~P"
 Q_ = ureg.Quantity
 

@@ -239,7 +239,7 @@ def _state_matrix(train: DriveTrain, supply: Any, w_l: Any, q: Any, size: int) -
     if lay.drive is not None:
         x[lay.drive] = supply
     if lay.current is not None:
-        x[lay.current] = train.motor.current(supply, w_m)  # type: ignore[union-attr]
+        x[lay.current] = train.motor.current(supply, w_m)  # type: ignore[union-attr,call-arg]
     x[lay.motor_speed] = w_m
     if lay.machine_speed is not None:
         x[lay.machine_speed] = w_l

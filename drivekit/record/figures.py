@@ -14,6 +14,7 @@ from typing import Any
 
 import numpy as np
 
+from ..pumps import CentrifugalPump
 from .results import Evaluation
 
 __all__ = ["bode_figure", "operating_figure", "step_figure", "svg_text"]
@@ -103,7 +104,7 @@ def operating_figure(ev: Evaluation) -> str:
     fig = _figure()
     ax = fig.add_subplot()
     if train.is_pump:
-        pump = train.machine
+        pump: CentrifugalPump = train.machine  # type: ignore[assignment]
         w_op = op.machine_speed
         speeds = sorted({w_op * f for f in (0.7, 0.85, 1.0)} | {float(pump.speed)})
         q = np.linspace(0.0, float(pump.curve_end_flow(max(speeds))), 300)

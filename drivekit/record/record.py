@@ -135,7 +135,7 @@ def _curve_rows(design: Design) -> list[tuple[str, str, str]]:
     train = design.train
     if not train.is_pump:
         return []
-    c = train.machine.curve
+    c = train.machine.curve  # type: ignore[union-attr]
     return [
         (f"{q * 3600:.6g}", f"{h:.6g}", f"{e * 100:.4g}") for q, h, e in zip(c.flow, c.head, c.efficiency, strict=True)
     ]
