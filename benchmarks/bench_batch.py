@@ -7,6 +7,9 @@ one vectorised pass (drivekit.variants.make_variants), timed as part of the
 batch figure. The PI is the SIMC setting of
 bench_analysis.py (Kc = 0.318 %/(m**3/h), Ti = 3.8 s).
 
+Prints the median of REPEAT runs of the whole batch (build, margins, step
+metrics) and the python-control loop timed on a sample and scaled to N.
+
 Run: .venv/bin/python benchmarks/bench_batch.py [N]
 """
 
@@ -15,6 +18,7 @@ import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 
+import statistics
 import sys
 import time
 
@@ -29,6 +33,7 @@ from drivekit.margins import loop_margins, step_metrics
 from drivekit.variants import make_variants
 
 SAMPLE = 200
+REPEAT = 5
 
 
 def spread(stages: dict, factors: np.ndarray) -> dict:
@@ -52,23 +57,26 @@ def main() -> None:
     stages = demo.raw_water_pump_stages()
     train = demo.raw_water_pump()
     nominal = train.linearize(train.operating_point(flow=demo.RAW_WATER_FLOW_TARGET))
-    t0 = time.perf_counter()
-    linear = make_variants(train, spread(stages, factors)).linearize(flow=demo.RAW_WATER_FLOW_TARGET)
-    batch = linear.to_model_batch()
-    t_setup = time.perf_counter() - t0
-    assert linear.valid.all()
-    models = [linear.model(i) for i in range(n)]
-
     gain_si = nominal.dc_gain_si
     kc, ti = 3.8 / (gain_si * 2 * 0.756), 3.8
     ctrl = LinearModel(np.zeros((1, 1)), np.ones((1, 1)), np.array([[kc / ti]]), np.array([[kc]]))
-
-    t0 = time.perf_counter()
-    bm = batch_loop_margins(batch, ctrl)
-    t_marg = time.perf_counter() - t0
-    t0 = time.perf_counter()
-    bs = batch_step_metrics(batch, ctrl, stable=bm.stable)
-    t_step = time.perf_counter() - t0
+    values = spread(stages, factors)
+    t_setup, t_marg, t_step, t_total = [], [], [], []
+    for _ in range(REPEAT):
+        t0 = time.perf_counter()
+        linear = make_variants(train, values).linearize(flow=demo.RAW_WATER_FLOW_TARGET)
+        batch = linear.to_model_batch()
+        t1 = time.perf_counter()
+        bm = batch_loop_margins(batch, ctrl)
+        t2 = time.perf_counter()
+        bs = batch_step_metrics(batch, ctrl, stable=bm.stable)
+        t3 = time.perf_counter()
+        t_setup.append(t1 - t0)
+        t_marg.append(t2 - t1)
+        t_step.append(t3 - t2)
+        t_total.append(t3 - t0)
+    assert linear.valid.all()
+    models = [linear.model(i) for i in range(n)]
 
     # drivekit single-variant functions on a sample (cross-check and per-variant cost)
     idx = rng.choice(n, size=min(SAMPLE, n), replace=False)
@@ -95,14 +103,17 @@ def main() -> None:
     print(f"variants: {n}; stable: {int(bm.stable.sum())}")
     print(frame[["gain_margin", "phase_margin", "delay_margin", "ms"]].describe().loc[["min", "50%", "max"]])
     print(bs.to_frame()[["rise_time", "settling_time", "overshoot", "iae"]].describe().loc[["min", "50%", "max"]])
-    total = t_setup + t_marg + t_step
-    print(f"\nbuild + linearise {n} variants (make_variants)  {t_setup:8.3f} s")
-    print(f"batch margins                                   {t_marg:8.3f} s")
-    print(f"batch step metrics                              {t_step:8.3f} s")
+    med = statistics.median
+    total = med(t_total)
+    print(f"\nmedian of {REPEAT} runs [s]")
+    print(f"build + linearise {n} variants (make_variants)  {med(t_setup):8.3f} s")
+    print(f"batch margins                                   {med(t_marg):8.3f} s")
+    print(f"batch step metrics                              {med(t_step):8.3f} s")
     print(f"batch total                                     {total:8.3f} s   (target <= 1.5 s)")
     print(f"drivekit single-variant loop (sample x {n // len(idx)})      {t_single:8.2f} s")
     print(f"python-control loop (sample {len(idx)} scaled to {n})     {t_ctrl:8.2f} s")
     print(f"speed-up over python-control: {t_ctrl / total:.1f}x (target >= 30x)")
+    print(f"load average while measuring: {os.getloadavg()[0]:.2f}")
     print(f"largest relative difference batch vs single (PM, settling): {worst:.2e}")
 
 

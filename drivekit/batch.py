@@ -24,6 +24,8 @@ from .units import ParameterError
 __all__ = ["BatchMargins", "BatchStepMetrics", "ModelBatch", "batch_loop_margins", "batch_step_metrics"]
 
 _CHUNK = 2000
+_BLOCK_CELLS = 80_000  # grid points per block of the open-loop evaluation (fits in cache)
+_STEP_CHUNK = 5000  # variants per pass of the time-step recursion
 _PER_DECADE = 60
 _ROOT_STEPS = 24
 
@@ -184,8 +186,8 @@ def _poly_from_roots(r: np.ndarray) -> np.ndarray:
     return c.real
 
 
-def _horner_iw(c: np.ndarray, w: np.ndarray) -> np.ndarray:
-    """Rows of real coefficients c (N, k), highest power first, at s = jw (w shape (N, W)).
+def _horner_parts(c: np.ndarray, w: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Real and imaginary parts of rows of real coefficients c (N, k), highest power first, at s = jw (w (N, W)).
 
     Even and odd powers are summed separately in real arithmetic in w**2:
     p(jw) = E(-w**2) + jw O(-w**2).
@@ -194,16 +196,19 @@ def _horner_iw(c: np.ndarray, w: np.ndarray) -> np.ndarray:
     x = -(w * w)
     powers = np.arange(k - 1, -1, -1)
     even, odd = c[:, powers % 2 == 0], c[:, powers % 2 == 1]
-    re = np.broadcast_to(even[:, :1], w.shape).copy() if even.shape[1] else np.zeros(w.shape)
-    for j in range(1, even.shape[1]):
-        re = re * x + even[:, j : j + 1]
-    im = np.zeros(w.shape)
-    if odd.shape[1]:
-        im = np.broadcast_to(odd[:, :1], w.shape).copy()
-        for j in range(1, odd.shape[1]):
-            im = im * x + odd[:, j : j + 1]
-        im = im * w
-    return re + 1j * im
+
+    def horner(cols: np.ndarray) -> np.ndarray:
+        if not cols.shape[1]:
+            return np.zeros(w.shape)
+        acc = np.broadcast_to(cols[:, :1], w.shape) * 1.0
+        for j in range(1, cols.shape[1]):
+            acc *= x
+            acc += cols[:, j : j + 1]
+        return acc
+
+    im = horner(odd)
+    im *= w
+    return horner(even), im
 
 
 class _OpenLoops:
@@ -214,15 +219,48 @@ class _OpenLoops:
         self.den = _poly_from_roots(self.poles)
         closed = np.linalg.eigvals(A - B @ C)
         # det(sI - A + BC) = det(sI - A) (1 + C (sI - A)^-1 B)  (matrix determinant lemma)
-        self.num = _poly_from_roots(closed) - self.den + D[:, 0, :1] * self.den
+        closed_poly = _poly_from_roots(closed)
+        num = closed_poly - self.den + D[:, 0, :1] * self.den
+        # coefficients that cancel to round-off in the difference are zero (the numerator's degree is lower)
+        noise = 1e-11 * (np.abs(closed_poly) + np.abs(self.den))
+        num = np.where(np.abs(num) <= noise, 0.0, num)
+        used = np.flatnonzero(np.any(num != 0.0, axis=0))
+        self.num = num[:, used[0] :] if len(used) else num[:, -1:]
         self.delay = delay
         self.d = D[:, 0, 0]
         self.A, self.B, self.C = A, B, C
 
     def at(self, rows: np.ndarray, w: np.ndarray) -> np.ndarray:
-        return (
-            _horner_iw(self.num[rows], w) / _horner_iw(self.den[rows], w) * np.exp(-1j * w * self.delay[rows][:, None])
-        )
+        """L at s = jw for the given rows (w shape (len(rows), W)); large grids in cache-sized blocks of rows."""
+        if w.size <= _BLOCK_CELLS:
+            return self._at(rows, w)
+        out = np.empty(w.shape, complex)
+        step = max(1, _BLOCK_CELLS // w.shape[1])
+        for s in range(0, len(rows), step):
+            out[s : s + step] = self._at(rows[s : s + step], w[s : s + step])
+        return out
+
+    def _at(self, rows: np.ndarray, w: np.ndarray) -> np.ndarray:
+        """L at s = jw for the given rows, in real arithmetic until the end."""
+        nre, nim = _horner_parts(self.num[rows], w)
+        dre, dim = _horner_parts(self.den[rows], w)
+        # num/den = num conj(den) / |den|**2, then times e^{-jw theta} = cos - j sin
+        mag = dre * dre
+        mag += dim * dim
+        a = nre * dre
+        a += nim * dim
+        b = nim * dre
+        b -= nre * dim
+        x = w * self.delay[rows][:, None]
+        c, s = np.cos(x), np.sin(x)
+        re = a * c
+        re += b * s
+        re /= mag
+        b *= c
+        a *= s
+        b -= a
+        b /= mag
+        return re + 1j * b
 
 
 def _root(f: Any, rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -268,8 +306,9 @@ def _zoom_max(f: Any, rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[n
 
 
 def _sign_change_pairs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    s = np.sign(x)
-    return np.nonzero((s[:, :-1] * s[:, 1:] < 0) | (s[:, :-1] == 0))
+    """(row, i) where x changes sign between i and i+1 or is exactly 0 at i (as drivekit.margins)."""
+    neg, pos = x < 0, x > 0
+    return np.nonzero((neg[:, :-1] & pos[:, 1:]) | (pos[:, :-1] & neg[:, 1:]) | (x[:, :-1] == 0))
 
 
 def _chunk_margins(ol: _OpenLoops, w: np.ndarray) -> dict[str, np.ndarray]:
@@ -406,7 +445,7 @@ def _unstable(ol: _OpenLoops, w: np.ndarray, lw: np.ndarray) -> np.ndarray:
         n = p.shape[1]
         arg_d = np.sum(math.pi / 2.0 - np.angle(1j * w[0] - p), axis=1)
         one = 1.0 + lw[dl]
-        turn = np.sum(np.angle(one[:, 1:] / one[:, :-1]), axis=1)  # = unwrapped phase change (steps < pi)
+        turn = np.sum(np.angle(one[:, 1:] * np.conj(one[:, :-1])), axis=1)  # = unwrapped phase change (steps < pi)
         tail = np.angle((1.0 + ol.d[dl]) / one[:, -1])
         total = arg_d + turn + tail
         out[dl] = np.maximum(0, np.round((n - 2.0 * total / math.pi) / 2.0)).astype(int)
@@ -580,8 +619,8 @@ def batch_step_metrics(
     """
     p, c = _pair(plant, controller)
     parts = []
-    for start in range(0, len(p), _CHUNK):
-        sl = slice(start, start + _CHUNK)
+    for start in range(0, len(p), _STEP_CHUNK):
+        sl = slice(start, start + _STEP_CHUNK)
         A, B, C, D = loop_matrices(p.subset(sl), c.subset(sl))
         delay = p.delay[sl]
         if stable is None:
@@ -592,7 +631,7 @@ def batch_step_metrics(
         else:
             ok = np.asarray(stable, dtype=bool)[sl]
         t, y, final = _settled_steps(A, B, C, D, delay, points, ok)
-        parts.append(step_metric_arrays(t, y, final, np.ones(len(delay)), settling_threshold, rise_limits))
+        parts.append(step_metric_arrays(t, y, final, np.ones(len(delay)), settling_threshold, rise_limits, True))
     return BatchStepMetrics(**{k: np.concatenate([pt[k] for pt in parts]) for k in parts[0]})
 
 
@@ -698,6 +737,69 @@ def _free_steps(A: np.ndarray, B: np.ndarray, C: np.ndarray, D: np.ndarray, h: n
     return yf + d00[:, None] * g[:, None] * (1.0 - yf)
 
 
+def _history_steps(
+    PhiT: np.ndarray,
+    c0: np.ndarray,
+    d00: np.ndarray,
+    Ga: np.ndarray,
+    Gb: np.ndarray,
+    ms: np.ndarray,
+    points: int,
+) -> np.ndarray:
+    """Setpoint steps of loops whose dead time is ms >= 1 whole steps, in blocks of ms steps.
+
+    Within a block every delayed sample is already known, so the block's
+    outputs follow from the state at its start and those samples by fixed
+    matrices (powers of Phi): the scheme of drivekit.responses for long
+    dead times, here for every variant of one ms at once.
+    """
+    N = c0.shape[0]
+    y = np.zeros((N, points))
+    Phi = np.swapaxes(PhiT, 1, 2)
+    for b in np.unique(ms).tolist():
+        g = np.nonzero(ms == b)[0]
+        y[g] = _blocks(Phi[g], c0[g], d00[g], Ga[g], Gb[g], b, points)
+    return y
+
+
+def _blocks(
+    Phi: np.ndarray, c0: np.ndarray, d00: np.ndarray, Ga: np.ndarray, Gb: np.ndarray, b: int, points: int
+) -> np.ndarray:
+    """Unit setpoint steps of N loops with a dead time of exactly b grid steps (see _history_steps)."""
+    N, n = c0.shape
+    P = np.empty((N, b + 1, n, n))
+    P[:, 0] = np.eye(n)
+    for j in range(1, b + 1):
+        P[:, j] = Phi @ P[:, j - 1]
+    pa = P @ Ga[:, None, :, None]  # (N, b+1, n, 1)
+    pb = P @ Gb[:, None, :, None]
+    # z[j] = Phi^j z0 + sum_i Phi^(j-1-i) Ga e_i + sum_(i>=1) Phi^(j-i) Gb e_i, j = 0..b
+    Ze = np.zeros((N, b + 1, b + 1, n))
+    for j in range(b + 1):
+        for i in range(b + 1):
+            if j - 1 - i >= 0:
+                Ze[:, j, i] += pa[:, j - 1 - i, :, 0]
+            if i >= 1 and j - i >= 0:
+                Ze[:, j, i] += pb[:, j - i, :, 0]
+    Y0z = np.einsum("nk,njkl->njl", c0, P[:, :b])  # (N, b, n)
+    Y0e = np.einsum("njik,nk->nji", Ze[:, :b], c0)  # (N, b, b+1)
+    Y0e[:, np.arange(b), np.arange(b)] += d00[:, None]
+    Pb, Zb = P[:, b], Ze[:, b]  # (N, n, n), (N, b+1, n)
+    past = np.zeros((points + 2 * b + 1, N))  # y0 history, time-major, sample k in row k + b
+    y = np.empty((points, N))
+    z = np.zeros((N, n))
+    for k0 in range(0, points, b):
+        v = past[k0 : k0 + b + 1].T.copy()  # y0[k0 - b .. k0], the last one computed now
+        v[:, b] = np.einsum("ni,ni->n", c0, z) + d00 * (1.0 - v[:, 0])
+        E = 1.0 - v
+        take = min(b, points - k0)
+        block = np.einsum("nji,ni->nj", Y0z, z) + np.einsum("nji,ni->nj", Y0e, E)
+        past[k0 + b : k0 + b + take] = block[:, :take].T
+        y[k0 : k0 + take] = v[:, :take].T
+        z = np.einsum("nij,nj->ni", Pb, z) + np.einsum("ni,nij->nj", E, Zb)
+    return y.T
+
+
 def _delayed_steps(
     A: np.ndarray,
     B: np.ndarray,
@@ -721,13 +823,15 @@ def _delayed_steps(
     PhiT = np.ascontiguousarray(np.swapaxes(E[:, :n, :n], 1, 2))
     g1 = E[:, :n, n + 2] / h[:, None]
     Ga, Gb = E[:, :n, n] - g1, g1
+    short = ms == 0  # dead time shorter than a step: the delayed sample interpolated (implicit)
+    if not np.any(short):
+        return _history_steps(PhiT, c0, d00, Ga, Gb, ms, points)
     top = int(ms.max(initial=0))
     hist = np.zeros((N, points + top + 1))  # y0 history, sample k at column k + top
     rows = np.arange(N)
     back = top - ms  # column of y0[k - ms] is k + back
     y = np.zeros((N, points))
     z = np.zeros((N, n))
-    short = ms == 0  # dead time shorter than a step: the delayed sample interpolated (implicit)
     beta = np.einsum("ni,ni->n", c0, Gb) + d00
     v_now = np.zeros(N)
     for k in range(points):

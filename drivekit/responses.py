@@ -201,10 +201,20 @@ def zpk_response(z: np.ndarray, p: np.ndarray, k: float, delay: float, omega: np
     -------
     numpy.ndarray of complex
     """
-    s = 1j * np.asarray(omega, dtype=float)[..., None]
-    num = np.prod(s - z, axis=-1) if len(z) else 1.0
-    den = np.prod(s - p, axis=-1) if len(p) else 1.0
-    return k * num / den * np.exp(-s[..., 0] * delay)
+    w = np.asarray(omega, dtype=float)
+    s = 1j * w
+    out = np.full(w.shape, complex(k))
+    for a in np.asarray(z, complex).tolist():
+        out *= s - a
+    if len(p):
+        poles = np.asarray(p, complex).tolist()
+        den = s - poles[0]
+        for b in poles[1:]:
+            den *= s - b
+        out /= den
+    if delay:
+        out *= np.exp(-1j * (w * delay))
+    return out
 
 
 def continuous_phase(z: np.ndarray, p: np.ndarray, k: float, delay: float, omega: np.ndarray) -> np.ndarray:

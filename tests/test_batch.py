@@ -123,3 +123,21 @@ def test_controller_per_variant_and_errors():
         ModelBatch(
             np.zeros((2, 1, 1)), np.ones((2, 1, 1)), np.ones((2, 1, 1)), np.zeros((2, 1, 1)), np.array([0, -1.0])
         )
+
+
+def test_batch_steps_with_whole_step_dead_times_equal_single():
+    """Dead times of several grid steps each (no shorter one in the batch): the blocked recursion."""
+    rng = np.random.default_rng(11)
+    plants = []
+    for _ in range(12):
+        den = np.polymul([rng.uniform(1.0, 4.0), 1.0], [rng.uniform(0.2, 0.8), 1.0])
+        plants.append(as_linear(control.tf([rng.uniform(0.5, 1.5)], den), delay=rng.uniform(0.3, 1.2)))
+    batch = ModelBatch.stack(plants)
+    bs = batch_step_metrics(batch, CONTROLLER)
+    for i, plant in enumerate(plants):
+        # Source: drivekit's single-loop response, itself checked against python-control (test_responses)
+        s = step_metrics(Loop(plant, CONTROLLER))
+        for name in STEP_FIELDS:
+            np.testing.assert_allclose(
+                getattr(bs, name)[i], getattr(s, name), rtol=1e-9, atol=1e-12, err_msg=f"{i} {name}"
+            )
