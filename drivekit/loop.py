@@ -106,7 +106,7 @@ def zpk(model: LinearModel) -> tuple[np.ndarray, np.ndarray, float]:
     if hit is not None:
         return hit
     p = np.asarray(model.poles, dtype=complex)
-    z = np.asarray(model.zeros, dtype=complex) if model.order else np.zeros(0, complex)
+    z = _finite_zeros(model)
     if model.order == 0:
         k = float(model.D[0, 0])
     else:
@@ -118,6 +118,29 @@ def zpk(model: LinearModel) -> tuple[np.ndarray, np.ndarray, float]:
     out = (z, p, k)
     _ZPK_CACHE[model] = out
     return out
+
+
+def _finite_zeros(model: LinearModel) -> np.ndarray:
+    """Transmission zeros; none at all when the first n - 1 Markov parameters C A^k B are exactly zero.
+
+    G(s) = D + sum_k C A^(k-1) B / s^k, so with D = 0 and C A^k B = 0 for
+    k < n - 1 the numerator of G has degree 0 (a chain of lags, as drive
+    trains give): no finite zeros, without the generalised eigenvalue
+    problem of the system matrix.
+    """
+    n = model.order
+    if n == 0:
+        return np.zeros(0, complex)
+    if model.D[0, 0] == 0.0:
+        v = model.B[:, 0]
+        c = model.C[0]
+        for _ in range(n - 1):
+            if float(c @ v) != 0.0:
+                break
+            v = model.A @ v
+        else:
+            return np.zeros(0, complex)
+    return np.asarray(model.zeros, dtype=complex)
 
 
 def _from_control(sys: Any) -> LinearModel:

@@ -281,6 +281,7 @@ class _Evaluated:
             w, lw = w[keep], lw[keep]
         self.model, self.z, self.p, self.k, self.w, self.lw = model, z, p, k, w, lw
         self.resp = scalar_response(z, p, k, model.delay)
+        self.log_slope = _log_slope(z, p, k, model.delay)
         self._unstable: int | None = None
 
     @property
@@ -337,31 +338,81 @@ def _small_response(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: np.
     return v * np.exp(-1j * w * delay) if delay else v
 
 
+def _log_slope(z: np.ndarray, p: np.ndarray, k: float, delay: float) -> Callable[[float], tuple[complex, complex]]:
+    """L(jw) and d ln L(jw) / dw at one frequency, as a plain function of w.
+
+    d ln L/dw = j (sum 1/(s - z) - sum 1/(s - p) - delay) at s = jw.
+    """
+    zs = tuple(complex(x) for x in z)
+    ps = tuple(complex(x) for x in p)
+    kc = complex(k)
+
+    def f(w: float) -> tuple[complex, complex]:
+        s = 1j * w
+        v, d = kc, complex(-delay)
+        for a in zs:
+            q = s - a
+            v *= q
+            d += 1.0 / q
+        for b in ps:
+            q = s - b
+            v /= q
+            d -= 1.0 / q
+        if delay:
+            v *= cmath.exp(-s * delay)
+        return v, 1j * d
+
+    return f
+
+
 def _peaks(ev: _Evaluated, s_abs: np.ndarray, t_abs: np.ndarray) -> tuple[float, float]:
-    """Refined maxima of |S| and |T| near their grid maxima: five 8-fold zooms on log w, both at once."""
+    """Maxima of |S| and |T| near their grid maxima, where their slopes in w change sign.
+
+    d ln|S|/dw = -Re(L'/(1 + L)) and d ln|T|/dw = Re(L'/(L (1 + L))) with
+    L' = dL/dw; the zero of the slope between the grid neighbours of the
+    grid maximum is found by Brent's method. Without a sign change there
+    the maximum is zoomed into (five 8-fold zooms on log w).
+    """
     w = ev.w
-    rows = _TWO
-    i = np.array([np.argmax(s_abs), np.argmax(t_abs)])
-    best = np.array([s_abs[i[0]], t_abs[i[1]]])
-    inner = (i > 0) & (i < len(w) - 1)
-    if not inner.any():
-        return float(best[0]), float(best[1])
-    ii = np.minimum(np.maximum(i, 1), len(w) - 2)
-    lo, hi = np.log(w[ii - 1]), np.log(w[ii + 1])
+    fl = ev.log_slope
+    out = []
+    for kind, vals in ((0, s_abs), (1, t_abs)):
+        i = int(np.argmax(vals))
+        best = float(vals[i])
+        if 0 < i < len(w) - 1:
+
+            def slope(x: float, kind: int = kind) -> float:
+                v, dl = fl(x)
+                r = dl / (1.0 + v)
+                return (-(r * v).real) if kind == 0 else r.real
+
+            a, b = float(w[i - 1]), float(w[i + 1])
+            if slope(a) > 0.0 > slope(b):
+                top = _refine(slope, a, b)
+                v = fl(top)[0]
+                best = max(best, abs(1.0 / (1.0 + v)) if kind == 0 else abs(v / (1.0 + v)))
+            else:
+                best = max(best, _zoom_peak(ev, kind, i))
+        out.append(best)
+    return out[0], out[1]
+
+
+def _zoom_peak(ev: _Evaluated, kind: int, i: int) -> float:
+    """Maximum of |S| (kind 0) or |T| (kind 1) near grid point i: five 8-fold zooms on log w."""
+    w = ev.w
+    lo, hi = math.log(w[i - 1]), math.log(w[i + 1])
+    best = -math.inf
     for _ in range(5):
-        x = lo[:, None] + (hi - lo)[:, None] * _FRAC
-        v = _small_response(ev.z, ev.p, ev.k, ev.model.delay, np.exp(x).ravel()).reshape(2, 17)
-        f = np.abs(v)
-        f[0] = 1.0
-        f /= np.abs(1.0 + v)  # row 0: |S|, row 1: |T|
-        j = np.argmax(f, axis=1)
-        best = np.where(inner, np.maximum(best, f[rows, j]), best)
-        j = np.minimum(np.maximum(j, 1), 15)
-        lo, hi = x[rows, j - 1], x[rows, j + 1]
-    return float(best[0]), float(best[1])
+        x = lo + (hi - lo) * _FRAC
+        v = _small_response(ev.z, ev.p, ev.k, ev.model.delay, np.exp(x))
+        f = np.abs(1.0 / (1.0 + v)) if kind == 0 else np.abs(v / (1.0 + v))
+        j = int(np.argmax(f))
+        best = max(best, float(f[j]))
+        j = min(max(j, 1), 15)
+        lo, hi = float(x[j - 1]), float(x[j + 1])
+    return best
 
 
-_TWO = np.arange(2)
 _FRAC = np.linspace(0.0, 1.0, 17)
 
 

@@ -165,7 +165,16 @@ def _roots(c: np.ndarray) -> np.ndarray:
 
 
 def _value(c: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """Polynomial (highest power first) at the points x, by Horner's rule."""
+    """Polynomial (highest power first) at the points x, by Horner's rule (plain Python for a few points)."""
+    if np.size(x) <= 16:
+        coeffs = c.tolist()
+        out = []
+        for v in np.ravel(x).tolist():
+            y = coeffs[0]
+            for a in coeffs[1:]:
+                y = y * v + a
+            out.append(y)
+        return np.array(out, dtype=np.result_type(c, x)).reshape(np.shape(x))
     y = np.full(np.shape(x), c[0], dtype=np.result_type(c, x))
     for a in c[1:]:
         y = y * x + a
@@ -257,6 +266,7 @@ def _slopes(num: np.ndarray, den: np.ndarray, roots: np.ndarray, gains: np.ndarr
 
 _EXACT_STRIDE = 12  # closed-loop poles by eigenvalues at every 12th gain, the others by Newton from there
 _NEWTON_STEPS = 3
+_MORE_STEPS = 3  # where the first steps were not enough
 _HARD_REACH = 1  # grid gains on each side of a break point solved by eigenvalues
 
 
@@ -278,6 +288,14 @@ def _newton(z: np.ndarray, coeffs: np.ndarray, steps: int) -> tuple[np.ndarray, 
     return z, step
 
 
+def _converged(z: np.ndarray, step: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Rows whose last Newton step is below 1e-10 of their size 1 + max |root|; and that size."""
+    with np.errstate(invalid="ignore"):
+        scale = 1.0 + np.max(np.abs(z), axis=1)
+        done = np.max(np.abs(step), axis=1) <= 1e-10 * scale
+    return done, scale
+
+
 def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any = ()) -> np.ndarray:
     """Continuous branches of den + K num = 0 for sorted gains K.
 
@@ -287,8 +305,9 @@ def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any 
     branch interpolated in ln K (cubic Hermite with the branch slopes, Ogata
     5th ed. §6-2 for dK/ds) and polished by Newton steps on the polynomial.
     A gain whose polished roots fail a check (Newton step not at round-off,
-    two roots merged, or the root sum off the coefficient by Vieta's
-    formula) is solved by eigenvalues as well.
+    or the root sum off the coefficient by Vieta's formula, as when two
+    guesses went to one root and left another out) is solved by eigenvalues
+    as well.
     """
     G = len(gains)
     if G <= 3 * _EXACT_STRIDE:
@@ -297,10 +316,8 @@ def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any 
     is_exact = np.zeros(G, bool)
     is_exact[::_EXACT_STRIDE] = True
     is_exact[-1] = True
-    if len(hard):
-        near = np.searchsorted(gains, np.asarray(hard, float))
-        for off in range(-_HARD_REACH, _HARD_REACH + 1):
-            is_exact[np.clip(near + off, 0, G - 1)] = True
+    for i in np.searchsorted(gains, np.asarray(hard, float)).tolist():
+        is_exact[max(0, i - _HARD_REACH) : i + _HARD_REACH + 1] = True
     exact = np.nonzero(is_exact)[0]
     rest = np.nonzero(~is_exact)[0]
     ke = gains[exact]
@@ -337,21 +354,14 @@ def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any 
     coeffs = den[None, :] + gains[rest, None] * nump[None, :]
     coeffs = coeffs / coeffs[:, :1]
     z, step = _newton(z, coeffs, _NEWTON_STEPS)
-    slow = np.nonzero(~(np.max(np.abs(step), axis=1) <= 1e-10 * (1.0 + np.max(np.abs(z), axis=1))))[0]
+    done, scale = _converged(z, step)
+    slow = np.nonzero(~done)[0]
     if len(slow):  # a few more steps where the guess was poor
-        z[slow], step[slow] = _newton(z[slow], coeffs[slow], _NEWTON_STEPS)
-    absz = np.abs(z)
+        z[slow], step[slow] = _newton(z[slow], coeffs[slow], _MORE_STEPS)
+        done[slow], scale[slow] = _converged(z[slow], step[slow])
+    # two guesses drawn to one root leave another root out: the roots' sum is then off by their distance
     with np.errstate(invalid="ignore"):
-        scale = 1.0 + np.max(absz, axis=1)
-    n = z.shape[1]
-    gap = np.abs(z[:, :, None] - z[:, None, :])
-    gap[:, np.arange(n), np.arange(n)] = np.inf
-    bad = (
-        ~np.isfinite(scale)
-        | (np.max(np.abs(step), axis=1) > 1e-10 * scale)
-        | (np.min(gap, axis=(1, 2)) < 1e-6 * scale)
-        | (np.abs(np.sum(z, axis=1) + coeffs[:, 1]) > 1e-9 * scale * n)
-    )
+        bad = ~done | ~(np.abs(np.sum(z, axis=1) + coeffs[:, 1]) <= 1e-11 * scale * z.shape[1])
     if np.any(bad):
         redo = _roots_batch(num, den, gains[rest[bad]])
         # order the recomputed roots like their interpolated guess

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from drivekit.linear import LinearModel
-from drivekit.loop import Loop, as_linear, feedback, series
+from drivekit.loop import Loop, as_linear, feedback, series, zpk
 from drivekit.units import ParameterError
 
 W = np.logspace(-2, 2, 50)
@@ -110,3 +110,21 @@ def test_setpoint_weights_shape_the_setpoint_response():
         )
     # a PI with b = 1 has no separate setpoint path
     assert Loop(as_linear(g), PID(1.2, 2.0)).setpoint_path is None
+
+
+@pytest.mark.parametrize(
+    ("num", "den"),
+    [
+        ([2.0], np.poly([-0.3, -1.0, -20.0, -155.0])),  # a chain of lags: no finite zeros
+        ([1.5, 3.0], np.poly([-0.5, -2.0, -7.0])),  # one zero
+        ([1.0, 0.2, 4.0], [1.0, 3.0, 2.0]),  # biproper: zeros from A - B C / D
+    ],
+)
+def test_factored_form_against_python_control(num, den):
+    model = as_linear(control.tf(num, den))
+    z, p, k = zpk(model)
+    # Source: python-control zeros, poles and the gain of the monic factored form of the same transfer function
+    g = control.tf(num, den)
+    np.testing.assert_allclose(np.sort_complex(z), np.sort_complex(control.zeros(g)), rtol=1e-10, atol=1e-12)
+    np.testing.assert_allclose(np.sort_complex(p), np.sort_complex(control.poles(g)), rtol=1e-10)
+    assert k == pytest.approx(num[0] / den[0], rel=1e-10)

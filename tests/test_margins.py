@@ -145,6 +145,29 @@ def test_ms_mt_bandwidth_against_dense_python_control_grid():
     assert m2.gain_margin == pytest.approx(m.gain_margin, rel=1e-10)
 
 
+@pytest.mark.parametrize(("zeta", "delay", "kp"), [(0.05, 0.0, 0.4), (0.3, 0.2, 0.4), (0.7, 0.5, 0.8)])
+def test_ms_mt_equal_a_bounded_scalar_maximisation(zeta, delay, kp):
+    """Sharp and broad peaks, with and without dead time: the peak values to round-off."""
+    g = control.tf([1.0], [1.0, 2 * zeta, 1.0])
+    c = control.tf([kp * 2.0, kp], [2.0, 0.0])
+    m = loop_margins(as_linear(c * g), delay=delay)
+    num, den = np.asarray((c * g).num[0][0], float), np.asarray((c * g).den[0][0], float)
+
+    def lw(w):
+        s = 1j * w
+        return np.polyval(num, s) / np.polyval(den, s) * np.exp(-s * delay)
+
+    w = np.logspace(-2, 2, 200001)
+    for value, f in ((m.ms, lambda x: abs(1 / (1 + lw(x)))), (m.mt, lambda x: abs(lw(x) / (1 + lw(x))))):
+        i = int(np.argmax(f(w)))
+        assert 0 < i < len(w) - 1  # an inner peak
+        # Source: scipy.optimize.minimize_scalar (bounded Brent) around the maximum of a 200 001-point grid
+        res = scipy.optimize.minimize_scalar(
+            lambda x, f=f: -f(x), bounds=(w[i - 1], w[i + 1]), method="bounded", options={"xatol": 1e-14}
+        )
+        assert value == pytest.approx(-res.fun, rel=1e-10)
+
+
 def test_bandwidth_closed_form():
     m = loop_margins(control.tf([1.0], [1.0, 3.0, 2.0, 0.0]))
     # Source: |T|^2 = 1/2 for T = 1/(s^3 + 3 s^2 + 2 s + 1), solved with scipy brentq
