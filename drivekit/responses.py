@@ -36,6 +36,7 @@ Frequency grid
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from typing import Any
 
@@ -335,6 +336,16 @@ def pade_coefficients(delay: float, order: int) -> tuple[np.ndarray, np.ndarray]
     n = int(order)
     if n < 1 or n > 10:
         raise ParameterError(f"`order`: got {order!r}, expected an integer Pade order from 1 to 10")
+    c, sign = _pade_table(n)
+    powers = delay ** np.arange(n + 1)
+    den = (c * powers)[::-1]
+    num = (sign * c * powers)[::-1]
+    return num / den[0], den / den[0]
+
+
+@functools.lru_cache(maxsize=16)
+def _pade_table(n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Coefficients c_j = (2n-j)! n! / ((2n)! j! (n-j)!) and signs (-1)**j of the [n/n] Pade approximant."""
     c = np.array(
         [
             math.factorial(2 * n - j)
@@ -343,10 +354,7 @@ def pade_coefficients(delay: float, order: int) -> tuple[np.ndarray, np.ndarray]
             for j in range(n + 1)
         ]
     )
-    powers = delay ** np.arange(n + 1)
-    num = (c * powers * (-1.0) ** np.arange(n + 1))[::-1]
-    den = (c * powers)[::-1]
-    return num / den[0], den / den[0]
+    return c, (-1.0) ** np.arange(n + 1)
 
 
 def _decay_span(poles: np.ndarray, delay: float) -> float:
@@ -703,8 +711,10 @@ def _settled_loop_response(
         t_end *= 2.0
     tail = np.abs(y[points - 1 :] - final) if math.isfinite(final) else np.full(len(y) - points + 1, np.nan)
     tt = t[points - 1 :]
-    tail_iae = float(np.trapezoid(tail, tt))
-    tail_itae = float(np.trapezoid(tail * tt, tt))
+    h = float(t[1] - t[0])  # trapezoidal rule on the uniform grid
+    tail_iae = h * (float(tail.sum()) - 0.5 * float(tail[0] + tail[-1]))
+    ttail = tail * tt
+    tail_itae = h * (float(ttail.sum()) - 0.5 * float(ttail[0] + ttail[-1]))
     return t[:points], y[:points], u[:points], final, tail_iae, tail_itae
 
 

@@ -380,10 +380,11 @@ def _imaginary_crossings(num: np.ndarray, den: np.ndarray) -> tuple[list[float],
     """
 
     def parts(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        # coefficients in x = w**2 of Pr(w) and of Pi(w)/w, highest first
-        power = len(c) - 1 - np.arange(len(c))
-        signed = np.where(power % 4 < 2, c, -c)
-        return signed[power % 2 == 0], signed[power % 2 == 1]
+        # coefficients in x = w**2 of Pr(w) and of Pi(w)/w, highest first: (jw)**p = j**p w**p
+        deg = len(c) - 1
+        signed = [a if (deg - i) % 4 < 2 else -a for i, a in enumerate(c.tolist())]
+        start = deg % 2  # index of the highest even power
+        return np.array(signed[start::2]), np.array(signed[1 - start :: 2])
 
     dr, di = parts(den)
     nr, ni = parts(num)
@@ -465,7 +466,9 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
     if gains is None:
         marks = [1.0, *cross_k, *(b.gain for b in breaks)]
         k = np.logspace(math.log10(min(marks)) - 3, math.log10(max(marks)) + 2, points)
-        k = np.unique(np.concatenate([[0.0], k, marks]))
+        k = np.concatenate([[0.0], k, marks])
+        k.sort()
+        k = k[np.concatenate([[True], k[1:] != k[:-1]])]
     else:
         k = np.asarray(gains, dtype=float)
         if k.ndim != 1 or np.any(k < 0) or not np.all(np.isfinite(k)):
