@@ -1,9 +1,11 @@
 """Margins and step metrics for many variants of a loop at once, vectorised in numpy.
 
 The same definitions as :func:`drivekit.margins.loop_margins` and
-:func:`drivekit.margins.step_metrics`; loops run over grid points, bisection
-steps and time steps, never over variants. Results agree with the
-single-variant functions to round-off (tested).
+:func:`drivekit.margins.step_metrics`; Python loops run over polynomial
+coefficients, root-finding steps, blocks of rows that fit in the cache,
+groups of variants with the same dead time in grid steps and blocks of
+time steps, never over single variants. Results agree with the
+single-variant functions to about 1e-9 (tested).
 """
 
 from __future__ import annotations
@@ -505,8 +507,10 @@ def batch_loop_margins(plant: Any, controller: Any) -> BatchMargins:
     -----
     Same definitions as :func:`drivekit.margins.loop_margins`. The open loop
     is evaluated from its characteristic polynomials (numerator by the
-    matrix determinant lemma, det(sI - A + BC) - det(sI - A)); crossings are
-    refined by 60 bisection steps on log w, peaks by golden-section search.
+    matrix determinant lemma, det(sI - A + BC) - det(sI - A), with
+    coefficients that cancel to round-off set to zero) in real arithmetic;
+    crossings are refined by Illinois steps on log w (to round-off), the
+    peaks of |S| and |T| by five 8-fold zooms around the grid maximum.
     """
     p, c = _pair(plant, controller)
     parts = []
