@@ -322,7 +322,7 @@ def _chunk_margins(ol: _OpenLoops, w: np.ndarray) -> dict[str, np.ndarray]:
     inf = np.full(N, np.inf)
     nan = np.full(N, np.nan)
     # gain crossovers
-    r, i = _sign_change_pairs(np.log(np.maximum(mag, 1e-300)))
+    r, i = _sign_change_pairs(mag - 1.0)  # the sign of log|L|
     wc = _root(lambda rr, ww: np.log(np.abs(ol.at(rr, ww[:, None])[:, 0])), r, w[i], w[i + 1])
     val = ol.at(r, wc[:, None])[:, 0]
     ph = np.degrees(np.angle(val))
@@ -428,6 +428,26 @@ def _bandwidths(ol: _OpenLoops, w: np.ndarray, t_abs: np.ndarray, ref: np.ndarra
     return out
 
 
+def _turns(lw: np.ndarray) -> np.ndarray:
+    """Phase change of 1 + L along each row: the sum of the angles between successive points (steps < pi).
+
+    Real arithmetic, in cache-sized blocks of rows: the angle between a and
+    b is atan2(Im(a conj b), Re(a conj b)).
+    """
+    out = np.empty(lw.shape[0])
+    step = max(1, _BLOCK_CELLS // max(1, lw.shape[1]))
+    for s in range(0, lw.shape[0], step):
+        re, im = lw.real[s : s + step], lw.imag[s : s + step]
+        ar, br = re[:, 1:] + 1.0, re[:, :-1] + 1.0
+        ai, bi = im[:, 1:], im[:, :-1]
+        cross = ai * br
+        cross -= ar * bi
+        ar *= br
+        ar += ai * bi
+        out[s : s + step] = np.arctan2(cross, ar).sum(axis=1)
+    return out
+
+
 def _unstable(ol: _OpenLoops, w: np.ndarray, lw: np.ndarray) -> np.ndarray:
     """Closed-loop right-half-plane poles: eigenvalues without dead time, Nyquist count with it."""
     N = len(ol.delay)
@@ -446,9 +466,9 @@ def _unstable(ol: _OpenLoops, w: np.ndarray, lw: np.ndarray) -> np.ndarray:
         p = ol.poles[dl]
         n = p.shape[1]
         arg_d = np.sum(math.pi / 2.0 - np.angle(1j * w[0] - p), axis=1)
-        one = 1.0 + lw[dl]
-        turn = np.sum(np.angle(one[:, 1:] * np.conj(one[:, :-1])), axis=1)  # = unwrapped phase change (steps < pi)
-        tail = np.angle((1.0 + ol.d[dl]) / one[:, -1])
+        part = lw if len(dl) == N else lw[dl]
+        turn = _turns(part)
+        tail = np.angle((1.0 + ol.d[dl]) / (1.0 + part[:, -1]))
         total = arg_d + turn + tail
         out[dl] = np.maximum(0, np.round((n - 2.0 * total / math.pi) / 2.0)).astype(int)
     return out
