@@ -289,10 +289,26 @@ def _newton(z: np.ndarray, coeffs: np.ndarray, steps: int) -> tuple[np.ndarray, 
 
 
 def _converged(z: np.ndarray, step: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Rows whose last Newton step is below 1e-10 of their size 1 + max |root|; and that size."""
+    """Rows whose Newton iterates are at round-off, and their size 1 + max |root|.
+
+    Done when the last step is below 1e-10 of the size, or when the error
+    left after it, at most about (n - 1) step**2 / gap near simple roots
+    (the quadratic term of Newton's method, |p''/(2 p')| <= sum 1/|r_i - r_j|
+    <= (n - 1)/gap with gap the smallest distance between roots), is below
+    1e-12 of the size.
+    """
+    n = z.shape[1]
     with np.errstate(invalid="ignore"):
         scale = 1.0 + np.max(np.abs(z), axis=1)
-        done = np.max(np.abs(step), axis=1) <= 1e-10 * scale
+        last = np.max(np.abs(step), axis=1)
+        done = last <= 1e-10 * scale
+        rest = np.nonzero(~done & np.isfinite(scale) & (last < 1e-4 * scale))[0]
+        if len(rest):
+            zr = z[rest]
+            gap = np.abs(zr[:, :, None] - zr[:, None, :])
+            gap[:, np.arange(n), np.arange(n)] = np.inf
+            gap = np.min(gap, axis=(1, 2))
+            done[rest] = (n - 1) * last[rest] ** 2 <= 1e-12 * scale[rest] * gap
     return done, scale
 
 
