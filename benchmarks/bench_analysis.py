@@ -6,6 +6,14 @@ J. Process Control 13 (2003) 291-309) on the half-rule first-order model:
 tau = 3.3 + 1/2 = 3.8 s, theta = 0.2 + 0.5 + 0.05 + 0.006 = 0.756 s, tau_c = theta:
 Kc = tau / (K (tau_c + theta)), Ti = min(tau, 4 (tau_c + theta)) = 3.8 s.
 
+Prints medians of repeated runs: each analysis alone, and the whole
+interactive update (rebuild the operating point and linear model, close the
+loop with the PI, step response 500 points, frequency response 400 points,
+margins, root locus) against the python-control equivalent of the same chain
+(the same rebuild, Pade(3) model, C G, feedback, step_response,
+frequency_response, stability_margins, root_locus_map at the same times,
+frequencies and gains), with the ratio and the load average.
+
 Run: .venv/bin/python benchmarks/bench_analysis.py
 """
 
