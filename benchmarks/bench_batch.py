@@ -26,7 +26,8 @@ import control
 import numpy as np
 
 from drivekit import demo
-from drivekit.batch import batch_loop_margins, batch_step_metrics
+from drivekit.batch import batch_loop_margins
+from drivekit.batch_steps import batch_step_metrics
 from drivekit.linear import LinearModel
 from drivekit.loop import Loop
 from drivekit.margins import loop_margins, step_metrics

@@ -5,7 +5,8 @@ at the boundary; :mod:`drivekit.widgets` draws it in Jupyter.
 """
 
 from . import demo, identify, simulate, slurry, surge, sweep, tuning, units
-from .batch import BatchMargins, BatchStepMetrics, ModelBatch, batch_loop_margins, batch_step_metrics
+from .batch import BatchMargins, ModelBatch, batch_loop_margins
+from .batch_steps import BatchStepMetrics, batch_step_metrics
 from .design import Design, DesignInfo, Targets
 from .drives import VariableSpeedDrive
 from .drivetrain import DriveTrain

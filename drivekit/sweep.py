@@ -208,7 +208,8 @@ METRIC_COLUMNS = (
 
 def _evaluate_chunk(design: Design, values: dict[str, np.ndarray], flows: np.ndarray | None) -> dict[str, np.ndarray]:
     """Metrics of one chunk of variants (runs in a worker process under Dask)."""
-    from .batch import batch_loop_margins, batch_step_metrics
+    from .batch import batch_loop_margins
+    from .batch_steps import batch_step_metrics
     from .variants import make_variants
 
     n = len(next(iter(values.values()))) if values else len(flows)  # type: ignore[arg-type]

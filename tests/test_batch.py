@@ -4,7 +4,8 @@ import control
 import numpy as np
 import pytest
 
-from drivekit.batch import ModelBatch, batch_loop_margins, batch_step_metrics
+from drivekit.batch import ModelBatch, batch_loop_margins
+from drivekit.batch_steps import batch_step_metrics
 from drivekit.loop import Loop, as_linear
 from drivekit.margins import loop_margins, step_metrics
 from drivekit.units import ParameterError
