@@ -307,7 +307,8 @@ def _zoom_max(f: Any, rows: np.ndarray, a: np.ndarray, b: np.ndarray) -> tuple[n
 def _sign_change_pairs(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """(row, i) where x changes sign between i and i+1 or is exactly 0 at i (as drivekit.margins)."""
     neg, pos = x < 0, x > 0
-    return np.nonzero((neg[:, :-1] & pos[:, 1:]) | (pos[:, :-1] & neg[:, 1:]) | (x[:, :-1] == 0))
+    rows, cols = np.nonzero((neg[:, :-1] & pos[:, 1:]) | (pos[:, :-1] & neg[:, 1:]) | (x[:, :-1] == 0))
+    return rows, cols
 
 
 def _chunk_margins(ol: _OpenLoops, w: np.ndarray) -> dict[str, np.ndarray]:

@@ -309,7 +309,7 @@ class LoopMatrices:
     delay: float
 
 
-def _two_input_controller(c: LinearModel, cr: LinearModel | None) -> tuple[np.ndarray, ...]:
+def _two_input_controller(c: LinearModel, cr: LinearModel | None) -> tuple[Any, ...]:
     """(A, B_e, B_r, C, D_e, D_r) of u = C(s) e + (C_r(s) - C(s)) r on one set of controller states.
 
     The setpoint path C_r and the error path C share their poles; realised
@@ -363,7 +363,7 @@ class Loop:
     """
 
     plant: LinearModel
-    controller: LinearModel
+    controller: Any
     setpoint_path: LinearModel | None = None
 
     def __post_init__(self) -> None:

@@ -170,7 +170,7 @@ class FrequencyResponse:
         }
         if self.sensitivity_mag is not None:
             data["|S|"] = self.sensitivity_mag
-            data["|T|"] = self.complementary_mag
+            data["|T|"] = self.complementary_mag  # type: ignore[assignment]  # set together with |S|
         return pd.DataFrame(data)
 
     def table(self) -> list[tuple[str, str]]:
