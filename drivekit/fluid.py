@@ -20,10 +20,10 @@ class Fluid:
     sg : float, Quantity or str
         Specific gravity, density relative to water at 4 degC. [-]
         Default 0.998: water at 20 degC (White, *Fluid Mechanics*, 7th ed.,
-        Table A.1: 998 kg/m**3).
+        Table A.1: 998 kg/m**3; from memory).
     viscosity : float, Quantity or str
         Dynamic viscosity. [Pa*s] Default 1.002e-3: water at 20 degC
-        (White, *Fluid Mechanics*, 7th ed., Table A.1).
+        (White, *Fluid Mechanics*, 7th ed., Table A.1; from memory).
     name : str
         Label for reports.
 

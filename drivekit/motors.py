@@ -228,7 +228,7 @@ class InductionMotor:
     ----------
     Chapman, *Electric Machinery Fundamentals*, 5th ed., §6.5 (torque-speed
     characteristic, linear near synchronous speed) and §6.9 (speed control
-    by changing the line frequency).
+    by changing the line frequency); section numbers from memory.
 
     Examples
     --------

@@ -48,7 +48,7 @@ def colebrook(reynolds: Any, relative_roughness: Any) -> Any:
     -----
     Solved to machine precision by Newton's method on x = 1/sqrt(f), started
     from Haaland's explicit formula (White, *Fluid Mechanics*, 7th ed.,
-    Eq. 6.49); four iterations are ample from that start. Valid for turbulent
+    §6.7, from memory); four iterations are ample from that start. Valid for turbulent
     flow (Re > 4000).
 
     References
@@ -60,7 +60,7 @@ def colebrook(reynolds: Any, relative_roughness: Any) -> Any:
     Examples
     --------
     Re = 1e5 and epsilon/D = 1e-4 (read about 0.0185 off the Moody chart,
-    White, *Fluid Mechanics*, 7th ed., Fig. 6.13):
+    White, *Fluid Mechanics*, 7th ed., Fig. 6.13, from memory):
 
     >>> round(float(colebrook(1e5, 1e-4)), 4)
     0.0185
@@ -134,7 +134,7 @@ class Pipe:
     roughness : float, Quantity or str
         Absolute wall roughness epsilon. [m] Default 0.045 mm, commercial
         steel (Moody, Trans. ASME 66 (1944); White, *Fluid Mechanics*, 7th ed.,
-        Table 6.1).
+        Table 6.1, from memory).
     static_head : float, Quantity or str
         Rise in liquid level (or pressure head) from the inlet to the outlet of
         this run that the pump must lift, may be negative. [m]
@@ -147,7 +147,7 @@ class Pipe:
     Notes
     -----
     Head loss by Darcy-Weisbach, ``h = (f L / D + sum K) v**2 / (2 g)``
-    (White, *Fluid Mechanics*, 7th ed., Eq. 6.10 and §6.9), with f from
+    (White, *Fluid Mechanics*, 7th ed., §6.4 and §6.9, from memory), with f from
     :func:`friction_factor`. The liquid column is taken as incompressible and
     the pipe as rigid for the flow dynamics, which then have the inertance
     ``rho L / A`` (see :attr:`inertance`); pressure waves are treated in

@@ -54,9 +54,9 @@ class Transmission:
     References
     ----------
     Nise, *Control Systems Engineering*, 6th ed., §2.7 (gears: reflected
-    impedances, Eq. 2.127 ff.); Shigley's *Mechanical Engineering Design*,
-    10th ed., Ch. 13 (gear trains). Two-mass model: Ellis, *Control System
-    Design Guide*, 4th ed., Ch. 16 (compliant coupling, resonance).
+    impedances); Shigley's *Mechanical Engineering Design*, 10th ed., Ch. 13
+    (gear trains, from memory). Two-mass model: Thomson, *Theory of Vibration
+    with Applications*, 5th ed., §6.1 (from memory).
 
     Examples
     --------
