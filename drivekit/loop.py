@@ -106,9 +106,12 @@ def zpk(model: LinearModel) -> tuple[np.ndarray, np.ndarray, float]:
     if hit is not None:
         return hit
     p = np.asarray(model.poles, dtype=complex)
-    z = _finite_zeros(model)
+    z, lead = _finite_zeros(model)
     if model.order == 0:
         k = float(model.D[0, 0])
+    elif lead is not None:
+        # no finite zeros: G(s) = C A^(n-1) B / prod(s - p), the gain is that Markov parameter
+        k = lead
     else:
         scale = 1.0 + float(np.max(np.abs(np.concatenate([p, z, [0.0]]))))
         s0 = 1j * 1.37 * scale
@@ -120,17 +123,19 @@ def zpk(model: LinearModel) -> tuple[np.ndarray, np.ndarray, float]:
     return out
 
 
-def _finite_zeros(model: LinearModel) -> np.ndarray:
+def _finite_zeros(model: LinearModel) -> tuple[np.ndarray, float | None]:
     """Transmission zeros; none at all when the first n - 1 Markov parameters C A^k B are exactly zero.
 
     G(s) = D + sum_k C A^(k-1) B / s^k, so with D = 0 and C A^k B = 0 for
     k < n - 1 the numerator of G has degree 0 (a chain of lags, as drive
     trains give): no finite zeros, without the generalised eigenvalue
-    problem of the system matrix.
+    problem of the system matrix. Returns the zeros and, in that case, the
+    n-th Markov parameter C A^(n-1) B (the numerator over the monic
+    denominator det(sI - A)), else None.
     """
     n = model.order
     if n == 0:
-        return np.zeros(0, complex)
+        return np.zeros(0, complex), None
     if model.D[0, 0] == 0.0:
         v = model.B[:, 0]
         c = model.C[0]
@@ -139,8 +144,8 @@ def _finite_zeros(model: LinearModel) -> np.ndarray:
                 break
             v = model.A @ v
         else:
-            return np.zeros(0, complex)
-    return np.asarray(model.zeros, dtype=complex)
+            return np.zeros(0, complex), float(c @ v)
+    return np.asarray(model.zeros, dtype=complex), None
 
 
 def _from_control(sys: Any) -> LinearModel:

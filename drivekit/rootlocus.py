@@ -272,16 +272,22 @@ _HARD_REACH = 1  # grid gains on each side of a break point solved by eigenvalue
 
 def _newton(z: np.ndarray, coeffs: np.ndarray, steps: int) -> tuple[np.ndarray, np.ndarray]:
     """Newton steps on monic polynomials (rows of coeffs) at every root guess of the same row; roots and last step."""
-    cols = [coeffs[:, i : i + 1] for i in range(2, coeffs.shape[1])]
+    # coefficient columns as complex (rows, 1) blocks: no real-to-complex cast inside the loop
+    cols = np.ascontiguousarray(coeffs.T[1:, :, None], dtype=complex)
     step = z
     for _ in range(steps):
-        p = z + coeffs[:, 1:2]
-        dp = np.ones_like(z)
-        for c in cols:
-            dp *= z
-            dp += p
+        p = z + cols[0]
+        if len(cols) > 1:
+            dp = z + p  # Horner's derivative after the first two coefficients
             p *= z
-            p += c
+            p += cols[1]
+            for c in cols[2:]:
+                dp *= z
+                dp += p
+                p *= z
+                p += c
+        else:
+            dp = np.ones_like(z)
         with np.errstate(divide="ignore", invalid="ignore"):
             step = p / dp
         z = z - step

@@ -128,3 +128,21 @@ def test_factored_form_against_python_control(num, den):
     np.testing.assert_allclose(np.sort_complex(z), np.sort_complex(control.zeros(g)), rtol=1e-10, atol=1e-12)
     np.testing.assert_allclose(np.sort_complex(p), np.sort_complex(control.poles(g)), rtol=1e-10)
     assert k == pytest.approx(num[0] / den[0], rel=1e-10)
+
+
+def test_lag_chain_gain_from_markov_parameter():
+    # a drive-train-like chain in state-space form (not companion form): three lags and a gain in series
+    lags = [(7.9, 3.28), (1.0, 1.0), (1.0, 0.05)]
+    model = None
+    for gain, tau in lags:
+        stage = LinearModel(np.array([[-1.0 / tau]]), np.array([[1.0 / tau]]), np.array([[gain]]), np.zeros((1, 1)))
+        model = stage if model is None else series(model, stage)
+    z, p, k = zpk(model)
+    # Source: python-control product of the same first-order transfer functions gain/(tau s + 1), in monic form
+    g = control.tf([1.0], [1.0])
+    for gain, tau in lags:
+        g = g * control.tf([gain], [tau, 1.0])
+    num, den = np.squeeze(g.num[0][0]), np.squeeze(g.den[0][0])
+    assert len(z) == 0
+    assert k == pytest.approx(float(np.atleast_1d(num)[0] / den[0]), rel=1e-12)
+    np.testing.assert_allclose(np.sort_complex(p), np.sort_complex(control.poles(g)), rtol=1e-12)
