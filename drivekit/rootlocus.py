@@ -357,21 +357,24 @@ def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any 
     out = np.empty((G, coarse.shape[1]), complex)
     out[exact] = coarse
     j = np.searchsorted(exact, rest) - 1
-    with np.errstate(divide="ignore", invalid="ignore"):
-        # cubic Hermite in u = ln K (slopes K ds/dK) where the interval starts above K = 0, else in K
-        logk = ke[j] > 0
-        u = np.where(gains > 0, np.log(np.where(gains > 0, gains, 1.0)), 0.0)
-        ua = np.where(logk, u[exact[j]], ke[j])
-        ub = np.where(logk, u[exact[j + 1]], ke[j + 1])
-        x = np.where(logk, u[rest], gains[rest])
-        sa = slope[j] * np.where(logk, ke[j], 1.0)[:, None]
-        sb = slope[j + 1] * np.where(logk, ke[j + 1], 1.0)[:, None]
-    t = ((x - ua) / (ub - ua))[:, None]
-    t2, t3 = t * t, t * t * t
-    width = (ub - ua)[:, None]
-    za, zb = coarse[j], coarse[j + 1]
-    z = za + (3 * t2 - 2 * t3) * (zb - za) + width * ((t3 - 2 * t2 + t) * sa + (t3 - t2) * sb)
-    z = np.where(np.isfinite(z), z, za + t * (zb - za))
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # cubic Hermite in u = ln K (slopes K ds/dK) where the interval starts above K = 0, else in K;
+        # its coefficients in t = (u - ua)/(ub - ua) per interval between exact gains, then each gain's cubic
+        logk = ke[:-1] > 0
+        ue = np.log(np.where(ke > 0, ke, 1.0))
+        ua = np.where(logk, ue[:-1], ke[:-1])
+        width = np.where(logk, ue[1:], ke[1:]) - ua
+        scale_a = np.where(logk, ke[:-1], 1.0)[:, None] * width[:, None]
+        scale_b = np.where(logk, ke[1:], 1.0)[:, None] * width[:, None]
+        sa, sb = slope[:-1] * scale_a, slope[1:] * scale_b
+        za, dz = coarse[:-1], coarse[1:] - coarse[:-1]
+        c2 = 3 * dz - 2 * sa - sb
+        c3 = sa + sb - 2 * dz
+        gk = gains[rest]
+        x = np.where(logk[j], np.log(np.where(gk > 0, gk, 1.0)), gk)
+        t = ((x - ua[j]) / width[j])[:, None]
+        z = za[j] + t * (sa[j] + t * (c2[j] + t * c3[j]))
+        z = np.where(np.isfinite(z), z, za[j] + t * dz[j])
     nump = np.concatenate([np.zeros(len(den) - len(num)), num])
     coeffs = den[None, :] + gains[rest, None] * nump[None, :]
     coeffs = coeffs / coeffs[:, :1]
@@ -413,36 +416,49 @@ def _imaginary_crossings(num: np.ndarray, den: np.ndarray) -> tuple[list[float],
     q = _sub(
         np.convolve(di, nr) if len(di) and len(nr) else np.zeros(1), np.convolve(dr, ni) if len(ni) else np.zeros(1)
     )
-    freqs = np.zeros(1)
-    x = _roots(q)
-    x = x[(np.abs(x.imag) <= 1e-7 * np.maximum(1.0, np.abs(x))) & (x.real > 0)].real
-    if len(x):
-        # one Newton step on q in x polishes the eigenvalue roots
-        with np.errstate(divide="ignore", invalid="ignore"):
-            fix = _value(q, x) / _value(_der(q), x)
-        x = np.where(np.isfinite(fix) & (np.abs(fix) < 1e-6 * x), x - fix, x)
-        freqs = np.concatenate([freqs, np.sqrt(x)])
-    s = 1j * freqs
-    nv, dv = _value(num, s), _value(den, s)
-    ok = np.abs(nv) >= 1e-300
-    with np.errstate(divide="ignore", invalid="ignore"):
-        kk = -dv / np.where(ok, nv, 1.0)
-    ok &= (kk.real > 0) & (np.abs(kk.imag) <= 1e-6 * np.abs(kk))
-    gains, omegas = kk.real[ok], freqs[ok]
-    order = np.argsort(gains)
-    return gains[order].tolist(), omegas[order].tolist()
+    qc, dq = q.tolist(), _der(q).tolist()
+    freqs = [0.0]
+    for r in _roots(q).tolist():
+        if abs(r.imag) <= 1e-7 * max(1.0, abs(r)) and r.real > 0:
+            # one Newton step on q in x polishes the eigenvalue root
+            x, slope = r.real, _horner(dq, r.real)
+            fix = _horner(qc, x) / slope if slope != 0 else math.nan
+            if math.isfinite(fix) and abs(fix) < 1e-6 * x:
+                x -= fix
+            freqs.append(math.sqrt(x))
+    nc, dc = num.tolist(), den.tolist()
+    found = []
+    for w in freqs:
+        s = 1j * w
+        nv = _horner(nc, s)
+        if abs(nv) >= 1e-300:
+            kk = -_horner(dc, s) / nv
+            if kk.real > 0 and abs(kk.imag) <= 1e-6 * abs(kk):
+                found.append((kk.real, w))
+    found.sort()
+    return [k for k, _ in found], [w for _, w in found]
+
+
+def _horner(coeffs: list[float], x: Any) -> Any:
+    """Polynomial (coefficients highest first) at one point x, by Horner's rule in plain arithmetic."""
+    y = coeffs[0]
+    for a in coeffs[1:]:
+        y = y * x + a
+    return y
 
 
 def _break_points(num: np.ndarray, den: np.ndarray) -> list[BreakPoint]:
     """Real roots of N D' - D N' = 0 with a real positive gain K = -D/N (on the locus)."""
-    r = _roots(_sub(np.convolve(num, _der(den)), np.convolve(den, _der(num))))
-    s = r[np.abs(r.imag) <= 1e-7 * np.maximum(1.0, np.abs(r))].real
-    nv = _value(num, s)
-    ok = nv != 0
-    with np.errstate(divide="ignore", invalid="ignore"):
-        kk = -_value(den, s) / np.where(ok, nv, 1.0)
-    ok &= kk > 0
-    return [BreakPoint(a, b) for a, b in sorted(zip(s[ok].tolist(), kk[ok].tolist(), strict=True))]
+    nc, dc = num.tolist(), den.tolist()
+    found = []
+    for r in _roots(_sub(np.convolve(num, _der(den)), np.convolve(den, _der(num)))).tolist():
+        if abs(r.imag) <= 1e-7 * max(1.0, abs(r)):
+            nv = _horner(nc, r.real)
+            if nv != 0:
+                kk = -_horner(dc, r.real) / nv
+                if kk > 0:
+                    found.append((r.real, kk))
+    return [BreakPoint(a, b) for a, b in sorted(found)]
 
 
 def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150) -> RootLocus:
