@@ -294,6 +294,13 @@ def _newton(z: np.ndarray, coeffs: np.ndarray, steps: int) -> tuple[np.ndarray, 
     return z, step
 
 
+@functools.lru_cache(maxsize=16)
+def _pairs(n: int) -> tuple[np.ndarray, np.ndarray]:
+    """Index pairs i < j of n roots."""
+    first, second = np.triu_indices(n, 1)
+    return first, second
+
+
 def _converged(z: np.ndarray, step: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Rows whose Newton iterates are at round-off, and their size 1 + max |root|.
 
@@ -310,10 +317,9 @@ def _converged(z: np.ndarray, step: np.ndarray) -> tuple[np.ndarray, np.ndarray]
         done = last <= 1e-10 * scale
         rest = np.nonzero(~done & np.isfinite(scale) & (last < 1e-4 * scale))[0]
         if len(rest):
+            first, second = _pairs(n)
             zr = z[rest]
-            gap = np.abs(zr[:, :, None] - zr[:, None, :])
-            gap[:, np.arange(n), np.arange(n)] = np.inf
-            gap = np.min(gap, axis=(1, 2))
+            gap = np.min(np.abs(zr[:, first] - zr[:, second]), axis=1) if n > 1 else np.full(len(rest), np.inf)
             done[rest] = (n - 1) * last[rest] ** 2 <= 1e-12 * scale[rest] * gap
     return done, scale
 
