@@ -370,6 +370,11 @@ def _decay_span(poles: np.ndarray, delay: float) -> float:
     return max(10.0 * delay, 1.0)
 
 
+def _outer(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Outer product a b^T of two vectors (numpy.outer without its argument handling)."""
+    return a[:, None] * b[None, :]
+
+
 def _pade_loop_poles(m: LoopMatrices, order: int = 2) -> np.ndarray:
     """Poles of the loop with the dead time replaced by a Pade approximation (for the span only)."""
     num, den = pade_coefficients(m.delay, order)
@@ -388,10 +393,10 @@ def _pade_loop_poles(m: LoopMatrices, order: int = 2) -> np.ndarray:
     g = 1.0 / (1.0 + Dp * d00)
     A = np.zeros((nz + n, nz + n))
     be = m.B[:, 0]
-    A[:nz, :nz] = m.A - g * Dp * np.outer(be, c0)
-    A[:nz, nz:] = -g * np.outer(be, Cp)
-    A[nz:, :nz] = np.outer(Bp, c0) * g
-    A[nz:, nz:] = Ap - g * d00 * np.outer(Bp, Cp)
+    A[:nz, :nz] = m.A - g * Dp * _outer(be, c0)
+    A[:nz, nz:] = -g * _outer(be, Cp)
+    A[nz:, :nz] = _outer(Bp, c0) * g
+    A[nz:, nz:] = Ap - g * d00 * _outer(Bp, Cp)
     return np.linalg.eigvals(A)
 
 
@@ -444,10 +449,13 @@ def _affine_orbit(Phi: np.ndarray, gam: np.ndarray, x0: np.ndarray, count: int) 
     # first step explicitly so that P, G describe `filled` steps
     while filled < count:
         take = min(filled, count - filled)
-        X[filled : filled + take] = X[:take] @ P.T + G
-        G = P @ G + G
-        P = P @ P
+        block = X[filled : filled + take]
+        np.matmul(X[:take], P.T, out=block)
+        block += G
         filled += take
+        if filled < count:
+            G = P @ G + G
+            P = P @ P
     return X
 
 
@@ -484,7 +492,7 @@ def _free_loop(m: LoopMatrices, r: float, d: float) -> tuple[np.ndarray, np.ndar
     """State matrix and constant input of the loop with its dead time removed (e = r - y0)."""
     q, Bq, d0, _, d00 = _inputs(m, r, d)
     g = 1.0 / (1.0 + d00)
-    Acl = m.A - g * np.outer(m.B[:, 0], m.C[0])
+    Acl = m.A - g * _outer(m.B[:, 0], m.C[0])
     bin_ = m.B[:, 0] * g * (r - d0) + Bq @ q
     return Acl, bin_
 
@@ -562,11 +570,11 @@ def _delayed_map(
     F = np.zeros((size, size))
     g = np.zeros(size)
     F[:n, :n] = Phi
-    F[:n] += np.outer(Ga, e0[0])
+    F[:n] += _outer(Ga, e0[0])
     g[:n] = Ga * r + Gq @ q
     if ms >= 1:
         e1 = (-unit[n + 1], r) if ms >= 2 else (-y0[0], r - y0[1])
-        F[:n] += np.outer(Gb, e1[0])
+        F[:n] += _outer(Gb, e1[0])
         g[:n] += Gb * e1[1]
         F[n : n + ms - 1, n + 1 : n + ms] = np.eye(ms - 1)
         F[n + ms - 1], g[n + ms - 1] = y0
@@ -577,7 +585,7 @@ def _delayed_map(
         alpha = (c0 @ free_rows, float(c0 @ (free_c + Gb * r)) + d00 * r + d0)
         scale = 1.0 / (1.0 + (1.0 - f) * beta)
         v1 = (scale * ((1.0 - f) * alpha[0] + f * y0[0]), scale * ((1.0 - f) * alpha[1] + f * y0[1]))
-        F[:n] = free_rows - np.outer(Gb, v1[0])
+        F[:n] = free_rows - _outer(Gb, v1[0])
         g[:n] = free_c + Gb * (r - v1[1])
         F[n], g[n] = v1
     y_row = unit[n]
