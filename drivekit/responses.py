@@ -358,15 +358,16 @@ def _pade_table(n: int) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _decay_span(poles: np.ndarray, delay: float) -> float:
-    p = np.asarray(poles, complex)
-    scale = max(1.0, float(np.max(np.abs(p), initial=0.0)))
-    moving = p[np.abs(p) > 1e-9 * scale]
-    rates = np.abs(moving.real)
-    decaying = rates > 1e-9 * scale
-    if np.any(decaying):
-        return delay + _LN_SETTLE / float(np.min(rates[decaying]))
-    if len(moving):
-        return delay + 10.0 * 2.0 * math.pi / float(np.max(np.abs(moving)))
+    # a few poles: plain arithmetic
+    p = np.asarray(poles, complex).tolist()
+    size = [abs(x) for x in p]
+    scale = max(1.0, max(size, default=0.0))
+    moving = [x for x, a in zip(p, size, strict=True) if a > 1e-9 * scale]
+    decaying = [abs(x.real) for x in moving if abs(x.real) > 1e-9 * scale]
+    if decaying:
+        return delay + _LN_SETTLE / min(decaying)
+    if moving:
+        return delay + 10.0 * 2.0 * math.pi / max(abs(x) for x in moving)
     return max(10.0 * delay, 1.0)
 
 
