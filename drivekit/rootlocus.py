@@ -245,17 +245,18 @@ def _follow(roots: np.ndarray, guess: np.ndarray | None = None) -> np.ndarray:
     matchings are then chained from the first gain.
     """
     G, n = roots.shape
-    order = np.empty((G, n), dtype=int)
-    order[:] = np.arange(n)
     if G < 2 or n < 2:
+        order = np.empty((G, n), dtype=int)
+        order[:] = np.arange(n)
         return order
     ahead = None if guess is None else np.where(np.isfinite(guess[:-1]), guess[:-1], roots[:-1])
     match = _match(roots[:-1], roots[1:], ahead)
     cur = list(range(n))
-    for i, row in enumerate(match.tolist(), start=1):
+    rows = [cur]
+    for row in match.tolist():
         cur = [row[j] for j in cur]
-        order[i] = cur
-    return order
+        rows.append(cur)
+    return np.array(rows, dtype=int)
 
 
 def _slopes(num: np.ndarray, den: np.ndarray, roots: np.ndarray, gains: np.ndarray) -> np.ndarray:
