@@ -176,8 +176,9 @@ def _value(c: np.ndarray, x: np.ndarray) -> np.ndarray:
             out.append(y)
         return np.array(out, dtype=np.result_type(c, x)).reshape(np.shape(x))
     y = np.full(np.shape(x), c[0], dtype=np.result_type(c, x))
-    for a in c[1:]:
-        y = y * x + a
+    for a in c[1:].tolist():
+        y *= x
+        y += a
     return y
 
 
