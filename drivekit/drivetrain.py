@@ -20,7 +20,7 @@ from .constants import STANDARD_GRAVITY
 from .drives import VariableSpeedDrive
 from .fluid import Fluid
 from .linear import LinearModel
-from .machines import Conveyor, Fan
+from .machines import Conveyor, Fan, NoLoad
 from .motors import DCMotor, InductionMotor
 from .piping import Pipe, line_friction_head, line_inertance_head, line_static_head
 from .pumps import CentrifugalPump
@@ -67,7 +67,8 @@ class DriveTrain:
         In the order power flows: an optional :class:`VariableSpeedDrive`, a
         motor (:class:`DCMotor` or :class:`InductionMotor`), an optional
         :class:`Transmission` (direct coupling without one), a driven machine
-        (:class:`CentrifugalPump`, :class:`Fan` or :class:`Conveyor`), for a
+        (:class:`CentrifugalPump`, :class:`Fan` or :class:`Conveyor`; none for
+        the motor alone on a free shaft), for a
         pump one or more :class:`Pipe` runs in series, and an optional sensor
         (:class:`FlowMeter`, :class:`SpeedSensor`, :class:`PressureSensor`).
     fluid : Fluid, optional
@@ -148,7 +149,11 @@ class DriveTrain:
                 "`stages`: a VariableSpeedDrive feeds an InductionMotor; a DCMotor takes its armature voltage directly"
             )
         self.transmission: Transmission | None = take((Transmission,))
-        self.machine: CentrifugalPump | Fan | Conveyor = take((CentrifugalPump, Fan, Conveyor))
+        self.machine: CentrifugalPump | Fan | Conveyor | NoLoad = take((CentrifugalPump, Fan, Conveyor))
+        if self.machine is None and (not stages or isinstance(stages[0], SpeedSensor)):
+            if self.transmission is not None and self.transmission.compliant:
+                raise ParameterError("`stages`: a compliant Transmission needs a driven machine after it")
+            self.machine = NoLoad()
         if self.machine is None:
             got = type(stages[0]).__name__ if stages else "nothing"
             raise ParameterError(
@@ -178,7 +183,7 @@ class DriveTrain:
             ("drive", self.drive),
             ("motor", self.motor),
             ("transmission", self.transmission),
-            ("machine", self.machine),
+            ("machine", None if isinstance(self.machine, NoLoad) else self.machine),
         ):
             if stage is not None:
                 roles[key] = stage
@@ -236,7 +241,8 @@ class DriveTrain:
         if isinstance(self.motor, DCMotor) and np.all(self.motor.L > 0):
             current = add("armature current", "A", self.motor.name)
         compliant = self.transmission is not None and self.transmission.compliant
-        shaft_owner = self.motor.name if compliant else f"{self.motor.name} + {self.machine.name}"
+        alone = compliant or isinstance(self.machine, NoLoad)
+        shaft_owner = self.motor.name if alone else f"{self.motor.name} + {self.machine.name}"
         motor_speed = add("motor speed", "rad/s", shaft_owner)
         machine_speed = twist = None
         if compliant:

@@ -250,10 +250,17 @@ class LinearModel:
 
     @functools.cached_property
     def tf(self) -> Any:
-        """The delay-free part as a python-control ``TransferFunction`` (SI); see :attr:`delay`."""
+        """The delay-free part as a python-control ``TransferFunction`` (SI); see :attr:`delay`.
+
+        Built from the zeros, poles and gain, so a model without finite zeros
+        has a constant numerator (no round-off coefficients in s).
+        """
         import control
 
-        return control.ss2tf(self.ss)
+        z, p, k = self._zpk
+        num = np.real_if_close(k * np.poly(z)) if len(z) else np.array([k])
+        den = np.real_if_close(np.poly(p)) if len(p) else np.array([1.0])
+        return control.tf(np.real(num), np.real(den), inputs=[self.input_name], outputs=[self.output_name])
 
     def pade(self, order: int = 3) -> Any:
         """Rational model with the dead time replaced by a Pade approximation of ``order``."""

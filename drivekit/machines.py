@@ -108,3 +108,26 @@ class Conveyor:
         if self.pulley_diameter is None:
             return float("nan")
         return speed * self.pulley_diameter / 2.0
+
+
+@dataclasses.dataclass(frozen=True, kw_only=True)
+class NoLoad:
+    """A free shaft: the motor (and any rigid gear) with nothing driven, for motor-only studies.
+
+    :class:`~drivekit.drivetrain.DriveTrain` puts one in when no driven
+    machine is given, so ``DriveTrain(DCMotor(...))`` is the motor alone, as
+    in textbook motor examples. It adds no inertia, friction or torque.
+
+    Parameters
+    ----------
+    name : str
+        Label.
+    """
+
+    name: str = "free shaft"
+    J = 0.0
+    b = 0.0
+
+    def torque(self, speed: Any, flow: Any = None, density: Any = None) -> Any:
+        """No torque at any speed. [N*m]"""
+        return 0.0 * speed

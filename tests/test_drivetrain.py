@@ -266,3 +266,17 @@ def test_operating_point_table_uses_trade_units(pump_train):
     assert rows["motor speed"][1] == "rpm"
     assert rows["pump efficiency"][1] == "%"
     assert 70 < rows["pump efficiency"][0] < 90
+
+
+def test_the_motor_alone_on_a_free_shaft():
+    # Source: University of Michigan / Carnegie Mellon "Control Tutorials", DC Motor Speed:
+    # P(s) = 0.01 / (0.005 s**2 + 0.06 s + 0.1001); with no driven machine the train is the motor alone
+    train = dk.DriveTrain(dk.DCMotor(R=1.0, L=0.5, k=0.01, J=0.01, b=0.1))
+    lin = train.linearize(train.operating_point(u=1.0))
+    num, den = lin.tf.num[0][0], lin.tf.den[0][0]
+    assert len(num) == 1  # no round-off coefficients in s
+    np.testing.assert_allclose(num / den[0], [0.01 / 0.005], rtol=1e-9)
+    np.testing.assert_allclose(den / den[0], [1.0, 0.06 / 0.005, 0.1001 / 0.005], rtol=1e-9)
+    assert "machine" not in train.stage_map()
+    with pytest.raises(ParameterError, match="compliant Transmission needs a driven machine"):
+        dk.DriveTrain(dk.DCMotor(R=1.0, L=0.5, k=0.01, J=0.01), dk.Transmission(ratio=2, stiffness=100.0))
