@@ -83,7 +83,7 @@ class DCMotor:
     def __post_init__(self) -> None:
         convert_fields(self)
         tau = np.asarray(self.L / self.R)
-        if np.any((tau > 0) & (tau < self.MIN_ELECTRICAL_TIME_CONSTANT)):
+        if np.any((np.asarray(self.L) > 0) & (tau < self.MIN_ELECTRICAL_TIME_CONSTANT)):
             raise ParameterError(
                 f"`L`: got {float(np.min(self.L)):.3g} H, expected 0 (negligible) or an electrical time "
                 f"constant L/R of at least {self.MIN_ELECTRICAL_TIME_CONSTANT:g} s"
