@@ -1,8 +1,17 @@
-"""Shared fixtures: the invented demo scenarios."""
+"""Shared fixtures: the invented demo scenarios; Hypothesis settings for CI."""
+
+import os
 
 import pytest
+from hypothesis import settings
 
 from drivekit import demo
+
+# In CI the property tests draw the same examples every run (a failure there is then reproducible);
+# on a developer's machine they explore new examples each run.
+settings.register_profile("ci", derandomize=True, print_blob=True)
+if os.environ.get("CI") == "true":
+    settings.load_profile("ci")
 
 
 @pytest.fixture

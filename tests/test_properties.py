@@ -12,6 +12,17 @@ from drivekit.units import ParameterError
 DOCUMENTED = (ParameterError, dk.OperatingPointError)
 
 
+def _equilibrium_error(train, op, lin):
+    """How far the state is from a true equilibrium: dx = A^-1 f(x, u), relative to the state's size.
+
+    A bare residual |f| scales with the model's stiffness (a tiny inertia makes rad/s**2 large); the
+    state error it implies does not.
+    """
+    f = train.derivatives(op.x, op.u_si)
+    dx = np.linalg.lstsq(lin.A, f, rcond=None)[0]
+    return float(np.max(np.abs(dx)) / (1.0 + np.max(np.abs(op.x))))
+
+
 def _finite_linear_model(train, op):
     lin = train.linearize(op)
     assert np.all(np.isfinite(lin.A))
@@ -61,7 +72,7 @@ def test_pump_train_is_valid_or_says_why(
         return
     lin = _finite_linear_model(train, op)
     assert op.flow == np.float64(flow_fraction * q_end) or math.isclose(op.flow, flow_fraction * q_end)
-    assert np.max(np.abs(train.derivatives(op.x, op.u_si))) < 1e-6 * (1 + np.max(np.abs(op.x)))
+    assert _equilibrium_error(train, op, lin) < 1e-9
     # the coupled model of a pump on a drive is stable and its flow rises with the input
     assert np.all(lin.poles.real < 0)
     assert lin.dc_gain_si > 0
@@ -93,5 +104,5 @@ def test_dc_conveyor_is_valid_or_says_why(r, inductance, k, jm, ratio, eta, stif
     except DOCUMENTED as err:
         assert str(err)  # noqa: PT017 - any documented error must explain itself
         return
-    _finite_linear_model(train, op)
-    assert np.max(np.abs(train.derivatives(op.x, op.u_si))) < 1e-6 * (1 + np.max(np.abs(op.x)))
+    lin = _finite_linear_model(train, op)
+    assert _equilibrium_error(train, op, lin) < 1e-9
