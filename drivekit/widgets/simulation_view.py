@@ -10,7 +10,7 @@ import ipywidgets as w
 import numpy as np
 
 from ..units import ParameterError
-from .base import PALETTE, array, figure
+from .base import PALETTE, array, figure, nice_ticks, set_ticks
 
 __all__ = ["SimulationView"]
 
@@ -24,6 +24,14 @@ def _column(frame: Any, start: str) -> str:
         if name.startswith(start):
             return str(name)
     raise ParameterError(f"`result`: its table has no column starting with {start!r}; got {list(frame.columns)}")
+
+
+def _round_ticks(axis: bq.Axis, *columns: Any) -> None:
+    """Round ticks spanning the finite values of ``columns``."""
+    values = np.concatenate([np.asarray(c, dtype=float).ravel() for c in columns])
+    values = values[np.isfinite(values)]
+    if values.size:
+        set_ticks(axis, nice_ticks(float(values.min()), float(values.max()), 5))
 
 
 class SimulationView(w.VBox):
@@ -138,6 +146,8 @@ class SimulationView(w.VBox):
             self.limits.y = array([[lo, lo], [hi, hi]])
         self.y_axis.label = meas
         self.u_axis.label = out
+        _round_ticks(self.y_axis, frame[sp], frame[meas])
+        _round_ticks(self.u_axis, frame[out], [lo, hi])
         others = [c for c in frame.columns if c not in (_TIME, sp, meas, out)]
         first = [c for c in _PREFERRED if c in others]
         options = first + [c for c in others if c not in first]
@@ -166,6 +176,7 @@ class SimulationView(w.VBox):
             self.third.x = array(frame[_TIME])
             self.third.y = array(frame[name])
         self.z_axis.label = name
+        _round_ticks(self.z_axis, frame[name])
 
     def _on_trace(self, change: dict[str, Any]) -> None:
         if self._syncing:
