@@ -23,6 +23,7 @@ import shutil
 import sys
 from collections.abc import Sequence
 from pathlib import Path
+from typing import Any
 
 __all__ = ["EXIT_CHANGED", "EXIT_NOT_CHECKED", "EXIT_OK", "EXIT_USAGE", "main", "template_folder"]
 
@@ -125,6 +126,11 @@ def _cmd_diff(args: argparse.Namespace) -> int:
     return EXIT_OK if d.same else EXIT_CHANGED
 
 
+def _command(sub: Any, name: str, text: str) -> argparse.ArgumentParser:
+    """One subcommand, with the exit codes in its help like the main command."""
+    return sub.add_parser(name, help=text, epilog=_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+
+
 def parser() -> argparse.ArgumentParser:
     """The argument parser of the ``drivekit`` command."""
     p = argparse.ArgumentParser(
@@ -136,47 +142,27 @@ def parser() -> argparse.ArgumentParser:
     )
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
 
-    new = sub.add_parser(
-        "new",
-        help="copy a template notebook and its design file into a new project folder",
-        epilog=_EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    new = _command(sub, "new", "copy a template notebook and its design file into a new project folder")
     new.add_argument("template", nargs="?", help="template name (see --list)")
     new.add_argument("dir", nargs="?", help="project folder to create (or fill)")
     new.add_argument("--list", action="store_true", help="list the templates and exit")
     new.set_defaults(run=_cmd_new)
 
-    check = sub.add_parser(
-        "check",
-        help="re-run notebooks in a temporary copy and compare their recorded results",
-        epilog=_EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    check = _command(sub, "check", "re-run notebooks in a temporary copy and compare their recorded results")
     check.add_argument("notebooks", nargs="+", metavar="NOTEBOOK", help="notebooks (.ipynb) with record() output")
     check.add_argument("--rtol", type=float, default=1e-6, help="relative tolerance of a result (default 1e-6)")
     check.add_argument("--atol", type=float, default=1e-9, help="absolute tolerance for results near 0 (default 1e-9)")
     check.add_argument("--timeout", type=float, default=600.0, help="longest time per cell in s (default 600)")
     check.set_defaults(run=_cmd_check)
 
-    report = sub.add_parser(
-        "report",
-        help="write a static HTML calculation record that reads offline",
-        epilog=_EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    report = _command(sub, "report", "write a static HTML calculation record that reads offline")
     report.add_argument("notebook", metavar="NOTEBOOK")
     report.add_argument("-o", "--output", required=True, metavar="FILE.html", help="the HTML file to write")
     report.add_argument("--execute", action="store_true", help="re-run the notebook (in a copy) first")
     report.add_argument("--timeout", type=float, default=600.0, help="longest time per cell in s when executing")
     report.set_defaults(run=_cmd_report)
 
-    diff = sub.add_parser(
-        "diff",
-        help="what changed between two design files, inputs and results",
-        epilog=_EPILOG,
-        formatter_class=argparse.RawDescriptionHelpFormatter,
-    )
+    diff = _command(sub, "diff", "what changed between two design files, inputs and results")
     diff.add_argument("a", metavar="A.toml")
     diff.add_argument("b", metavar="B.toml")
     diff.add_argument("--rtol", type=float, default=1e-9, help="relative change counted as a difference")
