@@ -10,19 +10,17 @@ time; with dead time the Nyquist criterion, counting the turns of
 
 from __future__ import annotations
 
-import cmath
 import dataclasses
 import math
 import weakref
-from collections.abc import Callable
 from typing import Any
 
 import numpy as np
-import scipy.optimize
 
 from .linear import LinearModel
 from .loop import Loop, as_linear
 from .metrics import LoadMetrics, StepMetrics, load_metrics, step_metric_arrays, step_metrics
+from .refine import GAIN_CROSSOVER, PHASE_CROSSOVER, S_PEAK, T_LEVEL, T_PEAK, crossing, loop_value, target
 from .responses import zpk, zpk_response
 from .units import ParameterError
 
@@ -238,34 +236,6 @@ def loop_is_stable(L: Any, delay: float = 0.0) -> bool:
     return closed_loop_unstable_poles(L, delay) == 0
 
 
-def scalar_response(z: np.ndarray, p: np.ndarray, k: float, delay: float) -> Callable[[float], complex]:
-    """L(jw) at one frequency as a plain function of w (fast for root finding).
-
-    Parameters
-    ----------
-    z, p : numpy.ndarray
-        Zeros and poles. [1/s]
-    k : float
-        Gain of the factored form.
-    delay : float
-        Dead time. [s]
-    """
-    zs = tuple(complex(x) for x in z)
-    ps = tuple(complex(x) for x in p)
-    kc = complex(k)
-
-    def resp(w: float) -> complex:
-        s = 1j * w
-        v = kc
-        for a in zs:
-            v *= s - a
-        for b in ps:
-            v /= s - b
-        return v * cmath.exp(-s * delay) if delay else v
-
-    return resp
-
-
 class _Evaluated:
     """The open loop on its margin grid, kept per model object (margins, stability and responses share it)."""
 
@@ -282,8 +252,8 @@ class _Evaluated:
             keep = np.concatenate([[True], w[1:] != w[:-1]])
             w, lw = w[keep], lw[keep]
         self.model, self.z, self.p, self.k, self.w, self.lw = model, z, p, k, w, lw
-        self.resp = scalar_response(z, p, k, model.delay)
-        self.log_slope = _log_slope(z, p, k, model.delay)
+        # the factors as the compiled refinement takes them
+        self.factors = (np.ascontiguousarray(z, complex), np.ascontiguousarray(p, complex), float(k), model.delay)
         self._unstable: int | None = None
 
     @property
@@ -329,42 +299,11 @@ def _sign_changes(x: np.ndarray) -> np.ndarray:
     return np.nonzero((s[:-1] * s[1:] < 0) | (s[:-1] == 0))[0]
 
 
-def _refine(fun: Any, a: float, b: float) -> float:
-    return float(scipy.optimize.brentq(fun, a, b, xtol=1e-15 * b, rtol=4 * np.finfo(float).eps, maxiter=200))
-
-
 def _small_response(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: np.ndarray) -> np.ndarray:
     """L(jw) at a few frequencies (same formula as zpk_response, fewer checks). [-]"""
     s = 1j * w[:, None]
     v = k * (s - z).prod(axis=1) / (s - p).prod(axis=1)
     return v * np.exp(-1j * w * delay) if delay else v
-
-
-def _log_slope(z: np.ndarray, p: np.ndarray, k: float, delay: float) -> Callable[[float], tuple[complex, complex]]:
-    """L(jw) and d ln L(jw) / dw at one frequency, as a plain function of w.
-
-    d ln L/dw = j (sum 1/(s - z) - sum 1/(s - p) - delay) at s = jw.
-    """
-    zs = tuple(complex(x) for x in z)
-    ps = tuple(complex(x) for x in p)
-    kc = complex(k)
-
-    def f(w: float) -> tuple[complex, complex]:
-        s = 1j * w
-        v, d = kc, complex(-delay)
-        for a in zs:
-            q = s - a
-            v *= q
-            d += 1.0 / q
-        for b in ps:
-            q = s - b
-            v /= q
-            d -= 1.0 / q
-        if delay:
-            v *= cmath.exp(-s * delay)
-        return v, 1j * d
-
-    return f
 
 
 def _peaks(ev: _Evaluated, s_abs: np.ndarray, t_abs: np.ndarray) -> tuple[float, float]:
@@ -376,22 +315,14 @@ def _peaks(ev: _Evaluated, s_abs: np.ndarray, t_abs: np.ndarray) -> tuple[float,
     the maximum is zoomed into (five 8-fold zooms on log w).
     """
     w = ev.w
-    fl = ev.log_slope
     out = []
-    for kind, vals in ((0, s_abs), (1, t_abs)):
+    for kind, peak, vals in ((0, S_PEAK, s_abs), (1, T_PEAK, t_abs)):
         i = int(np.argmax(vals))
         best = float(vals[i])
         if 0 < i < len(w) - 1:
-
-            def slope(x: float, kind: int = kind) -> float:
-                v, dl = fl(x)
-                r = dl / (1.0 + v)
-                return (-(r * v).real) if kind == 0 else r.real
-
             a, b = float(w[i - 1]), float(w[i + 1])
-            if slope(a) > 0.0 > slope(b):
-                top = _refine(slope, a, b)
-                v = fl(top)[0]
+            if target(peak, *ev.factors, 1.0, a) > 0.0 > target(peak, *ev.factors, 1.0, b):
+                v = loop_value(*ev.factors, crossing(peak, *ev.factors, a, b))
                 best = max(best, abs(1.0 / (1.0 + v)) if kind == 0 else abs(v / (1.0 + v)))
             else:
                 best = max(best, _zoom_peak(ev, kind, i))
@@ -453,15 +384,15 @@ def loop_margins(L: Any, delay: float = 0.0) -> Margins:
     """
     model = _as_open_loop(L, delay)
     ev = _evaluated(model)
-    z, p, w, lw, k, resp = ev.z, ev.p, ev.w, ev.lw, ev.k, ev.resp
+    z, p, w, lw, k = ev.z, ev.p, ev.w, ev.lw, ev.k
     theta = model.delay
 
     crossings: list[Crossing] = []
     mag = np.abs(lw)
     logm = np.log(np.maximum(mag, 1e-300))
     for i in _sign_changes(logm):
-        wc = _refine(lambda x: math.log(abs(resp(x))), w[i], w[i + 1])
-        val = resp(wc)
+        wc = crossing(GAIN_CROSSOVER, *ev.factors, w[i], w[i + 1])
+        val = loop_value(*ev.factors, wc)
         ph = math.degrees(math.atan2(val.imag, val.real))
         pm = ((ph + 180.0 + 180.0) % 360.0) - 180.0
         if pm == -180.0:
@@ -475,8 +406,8 @@ def loop_margins(L: Any, delay: float = 0.0) -> Margins:
     for i in _sign_changes(im):
         if lw.real[i] >= 0 and lw.real[i + 1] >= 0:
             continue
-        w180 = _refine(_imag_share(resp), w[i], w[i + 1])
-        val = resp(w180)
+        w180 = crossing(PHASE_CROSSOVER, *ev.factors, w[i], w[i + 1])
+        val = loop_value(*ev.factors, w180)
         if val.real >= 0:
             continue
         gm = 1.0 / abs(val)
@@ -512,7 +443,7 @@ def loop_margins(L: Any, delay: float = 0.0) -> Margins:
     # the peaks may sit at the ends of the axis (w -> 0 or w -> inf)
     ms = max(ms, s0, 1.0 / abs(1.0 + d_inf))
     mt = max(mt, t0, abs(d_inf / (1.0 + d_inf)))
-    bw = _bandwidth(w, t_abs, resp, t0)
+    bw = _bandwidth(ev, t_abs, t0)
     verdict = _verdict(stable, n_rhp_cl, n_rhp_ol, gains, phases)
     with np.errstate(divide="ignore"):
         gm_db = 20.0 * math.log10(gm) if gm > 0 else -math.inf
@@ -520,14 +451,6 @@ def loop_margins(L: Any, delay: float = 0.0) -> Margins:
         gm, gm_db, pm, wc, w180, wc / (2 * math.pi), w180 / (2 * math.pi), dm, ms, mt, bw,
         stable, n_rhp_cl, n_rhp_ol, verdict, tuple(crossings), theta,
     )  # fmt: skip
-
-
-def _imag_share(resp: Any) -> Any:
-    def f(x: float) -> float:
-        v = resp(x)
-        return v.imag / max(abs(v), 1e-300)
-
-    return f
 
 
 def _ph(val: complex) -> float:
@@ -551,7 +474,7 @@ def _dc_sensitivities(z: np.ndarray, p: np.ndarray, k: float) -> tuple[float, fl
     return abs(l0 / (1.0 + l0)), abs(1.0 / (1.0 + l0))
 
 
-def _bandwidth(w: np.ndarray, t_abs: np.ndarray, resp: Any, ref: float) -> float:
+def _bandwidth(ev: _Evaluated, t_abs: np.ndarray, ref: float) -> float:
     if not math.isfinite(ref) or ref <= 0:
         return math.nan
     level = ref / math.sqrt(2.0)
@@ -559,12 +482,7 @@ def _bandwidth(w: np.ndarray, t_abs: np.ndarray, resp: Any, ref: float) -> float
     if not len(below) or below[0] == 0:
         return math.nan
     i = below[0]
-
-    def f(x: float) -> float:
-        v = resp(x)
-        return math.log(abs(v) / abs(1.0 + v)) - math.log(level)
-
-    return _refine(f, w[i - 1], w[i])
+    return crossing(T_LEVEL, *ev.factors, ev.w[i - 1], ev.w[i], level)
 
 
 def _verdict(stable: bool, n_cl: int, n_ol: int, gains: list[Crossing], phases: list[Crossing]) -> str:

@@ -110,9 +110,11 @@ def friction_factor(reynolds: Any, relative_roughness: Any) -> Any:
     0.064
     """
     re = np.maximum(np.asarray(reynolds, dtype=float), 1e-12)
-    laminar = 64.0 / re
     re_turb = np.maximum(re, TURBULENT_LIMIT)
     turbulent = colebrook(re_turb, relative_roughness)
+    if np.all(re >= TURBULENT_LIMIT):
+        return turbulent
+    laminar = 64.0 / re
     f_lam_edge = 64.0 / LAMINAR_LIMIT
     f_turb_edge = colebrook(TURBULENT_LIMIT, relative_roughness)
     s = (re - LAMINAR_LIMIT) / (TURBULENT_LIMIT - LAMINAR_LIMIT)

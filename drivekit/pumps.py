@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import dataclasses
+import functools
 import math
 from typing import Any
 
@@ -187,9 +188,9 @@ class PumpCurve:
         c0, c1, c2 = self.power_coefficients
         return STANDARD_GRAVITY * flow * self.head_at(flow) / (c0 + c1 * flow + c2 * flow * flow)
 
-    @property
+    @functools.cached_property
     def best_efficiency_flow(self) -> float:
-        """Flow of best efficiency on the fitted curves. [m**3/s]"""
+        """Flow of best efficiency on the fitted curves (found once: the curve does not change). [m**3/s]"""
         q = np.linspace(self.flow[0], self.flow[-1], 2001)
         return float(q[np.argmax(self.efficiency_at(q))])
 

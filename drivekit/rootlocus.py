@@ -13,8 +13,8 @@ import math
 from typing import Any
 
 import numpy as np
-import scipy.optimize
 
+from .locustrace import trace_branches
 from .loop import Loop, as_linear
 from .responses import pade_coefficients, zpk
 from .units import ParameterError
@@ -164,24 +164,6 @@ def _roots(c: np.ndarray) -> np.ndarray:
     return np.concatenate([r, np.zeros(zero, complex)]) if zero else r
 
 
-def _value(c: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """Polynomial (highest power first) at the points x, by Horner's rule (plain Python for a few points)."""
-    if np.size(x) <= 16:
-        coeffs = c.tolist()
-        out = []
-        for v in np.ravel(x).tolist():
-            y = coeffs[0]
-            for a in coeffs[1:]:
-                y = y * v + a
-            out.append(y)
-        return np.array(out, dtype=np.result_type(c, x)).reshape(np.shape(x))
-    y = np.full(np.shape(x), c[0], dtype=np.result_type(c, x))
-    for a in c[1:].tolist():
-        y *= x
-        y += a
-    return y
-
-
 def _rational(L: Any, pade_order: int) -> tuple[np.ndarray, np.ndarray, int, np.ndarray, np.ndarray]:
     """Numerator, denominator (monic), Pade order used, open-loop zeros and poles."""
     model = as_linear(L.open_loop if isinstance(L, Loop) else L)
@@ -220,188 +202,26 @@ def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndar
     return np.linalg.eigvals(comp)
 
 
-def _match(prev: np.ndarray, new: np.ndarray, ahead: np.ndarray | None = None) -> np.ndarray:
-    """Column order of each row of ``new`` that follows the same row of ``prev`` (nearest, no root twice).
-
-    With ``ahead`` (a predicted position for each root of ``prev``) a root
-    may also be matched near its prediction; the nearer of the two counts.
-    """
-    cost = np.abs(prev[:, :, None] - new[:, None, :])
-    if ahead is not None:
-        cost = np.fmin(cost, np.abs(ahead[:, :, None] - new[:, None, :]))
-    match = np.argmin(cost, axis=2)
-    srt = np.sort(match, axis=1)
-    for i in np.nonzero(np.any(srt[:, 1:] == srt[:, :-1], axis=1))[0]:
-        match[i] = scipy.optimize.linear_sum_assignment(cost[i])[1]
-    return match
-
-
-def _follow(roots: np.ndarray, guess: np.ndarray | None = None) -> np.ndarray:
-    """Column order (G, n) of each gain's roots so that each column moves continuously with the gain.
-
-    Each gain's roots are matched to the next gain's nearest roots, for all
-    gains at once, where ``guess`` (the roots predicted at the next gain from
-    each row, same column order as ``roots``) says where to look; where two
-    roots claim the same neighbour the optimal assignment decides. The
-    matchings are then chained from the first gain.
-    """
-    G, n = roots.shape
-    if G < 2 or n < 2:
-        order = np.empty((G, n), dtype=int)
-        order[:] = np.arange(n)
-        return order
-    ahead = None if guess is None else np.where(np.isfinite(guess[:-1]), guess[:-1], roots[:-1])
-    match = _match(roots[:-1], roots[1:], ahead)
-    cur = list(range(n))
-    rows = [cur]
-    for row in match.tolist():
-        cur = [row[j] for j in cur]
-        rows.append(cur)
-    return np.array(rows, dtype=int)
-
-
-def _slopes(num: np.ndarray, den: np.ndarray, roots: np.ndarray, gains: np.ndarray) -> np.ndarray:
-    """Branch slopes ds/dK = -N(s) / (D'(s) + K N'(s)) at the roots (Ogata 5th ed. §6-2)."""
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        return -_value(num, roots) / (_value(_der(den), roots) + gains[:, None] * _value(_der(num), roots))
-
-
-_EXACT_STRIDE = 12  # closed-loop poles by eigenvalues at every 12th gain, the others by Newton from there
-_NEWTON_STEPS = 3
-_MORE_STEPS = 3  # where the first steps were not enough
-_HARD_REACH = 1  # grid gains on each side of a break point solved by eigenvalues
-
-
-def _newton(z: np.ndarray, coeffs: np.ndarray, steps: int) -> tuple[np.ndarray, np.ndarray]:
-    """Newton steps on monic polynomials (rows of coeffs) at every root guess of the same row; roots and last step."""
-    # coefficient columns as complex (rows, 1) blocks: no real-to-complex cast inside the loop
-    cols = np.ascontiguousarray(coeffs.T[1:, :, None], dtype=complex)
-    step = z
-    for _ in range(steps):
-        p = z + cols[0]
-        if len(cols) > 1:
-            dp = z + p  # Horner's derivative after the first two coefficients
-            p *= z
-            p += cols[1]
-            for c in cols[2:]:
-                dp *= z
-                dp += p
-                p *= z
-                p += c
-        else:
-            dp = np.ones_like(z)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            step = p / dp
-        z = z - step
-    return z, step
-
-
-@functools.lru_cache(maxsize=16)
-def _pairs(n: int) -> tuple[np.ndarray, np.ndarray]:
-    """Index pairs i < j of n roots."""
-    first, second = np.triu_indices(n, 1)
-    return first, second
-
-
-def _converged(z: np.ndarray, step: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Rows whose Newton iterates are at round-off, and their size 1 + max |root|.
-
-    Done when the last step is below 1e-10 of the size, or when the error
-    left after it, at most about (n - 1) step**2 / gap near simple roots
-    (the quadratic term of Newton's method, |p''/(2 p')| <= sum 1/|r_i - r_j|
-    <= (n - 1)/gap with gap the smallest distance between roots), is below
-    1e-12 of the size.
-    """
-    n = z.shape[1]
-    with np.errstate(invalid="ignore"):
-        scale = 1.0 + np.max(np.abs(z), axis=1)
-        last = np.max(np.abs(step), axis=1)
-        done = last <= 1e-10 * scale
-        rest = np.nonzero(~done & np.isfinite(scale) & (last < 1e-4 * scale))[0]
-        if len(rest):
-            first, second = _pairs(n)
-            zr = z[rest]
-            gap = np.min(np.abs(zr[:, first] - zr[:, second]), axis=1) if n > 1 else np.full(len(rest), np.inf)
-            done[rest] = (n - 1) * last[rest] ** 2 <= 1e-12 * scale[rest] * gap
-    return done, scale
-
-
-def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any = ()) -> np.ndarray:
+def _locus_roots(
+    num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any = (), poles: np.ndarray | None = None
+) -> np.ndarray:
     """Continuous branches of den + K num = 0 for sorted gains K.
 
-    Eigenvalues of the companion matrices at every ``_EXACT_STRIDE``-th gain
-    and at the gains nearest each of the ``hard`` gains (break points, where
-    branches meet and Newton's method converges slowly); in between, the
-    branch interpolated in ln K (cubic Hermite with the branch slopes, Ogata
-    5th ed. §6-2 for dK/ds) and polished by Newton steps on the polynomial.
-    A gain whose polished roots fail a check (Newton step not at round-off,
-    or the root sum off the coefficient by Vieta's formula, as when two
-    guesses went to one root and left another out) is solved by eigenvalues
-    as well.
+    The roots at the first gain (the open-loop ``poles`` when it is 0 and
+    they are given), and at the two grid gains from each of the ``hard``
+    gains (break points, where roots coincide) upwards, are eigenvalues of
+    companion matrices; every other gain's roots are followed from the gain
+    before by the predictor-corrector in :mod:`drivekit.locustrace`.
     """
     G = len(gains)
-    if G <= 3 * _EXACT_STRIDE:
-        roots = _roots_batch(num, den, gains)
-        return np.take_along_axis(roots, _follow(roots), axis=1)
-    is_exact = np.zeros(G, bool)
-    is_exact[::_EXACT_STRIDE] = True
-    is_exact[-1] = True
-    for i in np.searchsorted(gains, np.asarray(hard, float)).tolist():
-        is_exact[max(0, i - _HARD_REACH) : i + _HARD_REACH + 1] = True
-    exact = np.nonzero(is_exact)[0]
-    rest = np.nonzero(~is_exact)[0]
-    ke = gains[exact]
-    roots = _roots_batch(num, den, ke)
-    slope = _slopes(num, den, roots, ke)
-    # first-order prediction of each root at the next exact gain (in ln K above K = 0) guides the matching
-    ahead = np.empty_like(roots)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        grow = np.where(ke[:-1] > 0, ke[:-1] * np.log(ke[1:] / np.where(ke[:-1] > 0, ke[:-1], 1.0)), ke[1:])
-        ahead[:-1] = roots[:-1] + grow[:, None] * slope[:-1]
-    ahead[-1] = roots[-1]
-    order = _follow(roots, ahead)
-    coarse = np.take_along_axis(roots, order, axis=1)
-    slope = np.take_along_axis(slope, order, axis=1)
-    out = np.empty((G, coarse.shape[1]), complex)
-    out[exact] = coarse
-    j = np.searchsorted(exact, rest) - 1
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        # cubic Hermite in u = ln K (slopes K ds/dK) where the interval starts above K = 0, else in K;
-        # its coefficients in t = (u - ua)/(ub - ua) per interval between exact gains, then each gain's cubic
-        logk = ke[:-1] > 0
-        ue = np.log(np.where(ke > 0, ke, 1.0))
-        ua = np.where(logk, ue[:-1], ke[:-1])
-        width = np.where(logk, ue[1:], ke[1:]) - ua
-        scale_a = np.where(logk, ke[:-1], 1.0)[:, None] * width[:, None]
-        scale_b = np.where(logk, ke[1:], 1.0)[:, None] * width[:, None]
-        sa, sb = slope[:-1] * scale_a, slope[1:] * scale_b
-        za, dz = coarse[:-1], coarse[1:] - coarse[:-1]
-        c2 = 3 * dz - 2 * sa - sb
-        c3 = sa + sb - 2 * dz
-        gk = gains[rest]
-        x = np.where(logk[j], np.log(np.where(gk > 0, gk, 1.0)), gk)
-        t = ((x - ua[j]) / width[j])[:, None]
-        z = za[j] + t * (sa[j] + t * (c2[j] + t * c3[j]))
-        z = np.where(np.isfinite(z), z, za[j] + t * dz[j])
+    at = np.searchsorted(gains, np.asarray(hard, float)).tolist()
+    start = poles is not None and gains[0] == 0.0
+    fixed = np.array(sorted({0, *(i for i in at if i < G), *(i + 1 for i in at if i + 1 < G)}))
+    roots = _roots_batch(num, den, gains[fixed[1:] if start else fixed])
+    if start:
+        roots = np.concatenate([np.asarray(poles, complex)[None, :], roots])
     nump = np.concatenate([np.zeros(len(den) - len(num)), num])
-    coeffs = den[None, :] + gains[rest, None] * nump[None, :]
-    coeffs = coeffs / coeffs[:, :1]
-    z, step = _newton(z, coeffs, _NEWTON_STEPS)
-    done, scale = _converged(z, step)
-    slow = np.nonzero(~done)[0]
-    if len(slow):  # a few more steps where the guess was poor
-        z[slow], step[slow] = _newton(z[slow], coeffs[slow], _MORE_STEPS)
-        done[slow], scale[slow] = _converged(z[slow], step[slow])
-    # two guesses drawn to one root leave another root out: the roots' sum is then off by their distance
-    with np.errstate(invalid="ignore"):
-        bad = ~done | ~(np.abs(np.sum(z, axis=1) + coeffs[:, 1]) <= 1e-11 * scale * z.shape[1])
-    if np.any(bad):
-        redo = _roots_batch(num, den, gains[rest[bad]])
-        # order the recomputed roots like their interpolated guess
-        guess = np.where(np.isfinite(z[bad]), z[bad], 0.0)
-        z[bad] = np.take_along_axis(redo, _match(guess, redo), axis=1)
-    out[rest] = z
-    return out
+    return trace_branches(den, nump, gains, fixed, roots)
 
 
 def _imaginary_crossings(num: np.ndarray, den: np.ndarray) -> tuple[list[float], list[float]]:
@@ -524,16 +344,16 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
         if k.ndim != 1 or np.any(k < 0) or not np.all(np.isfinite(k)):
             raise ParameterError("`gains`: expected a 1-D array of finite gain factors >= 0")
         k = np.sort(k)
-    branches = _locus_roots(num, den, k, [b.gain for b in breaks])
+    branches = _locus_roots(num, den, k, [b.gain for b in breaks], p_ol)
     q = n - m
-    centroid = float((np.sum(p_ol).real - np.sum(z_ol).real) / q) if q > 0 else math.nan
-    angles = tuple(float((2 * i + 1) * 180.0 / q) for i in range(q)) if q > 0 else ()
-    at_one = np.nonzero(k == 1.0)[0]
-    now = branches[at_one[0]] if len(at_one) else _roots_batch(num, den, np.array([1.0]))[0]
-    now = now[np.lexsort((np.abs(now.imag), np.abs(now)))]
+    centroid = (sum(p_ol.tolist()).real - sum(z_ol.tolist()).real) / q if q > 0 else math.nan
+    angles = tuple((2 * i + 1) * 180.0 / q for i in range(q)) if q > 0 else ()
+    at_one = int(np.searchsorted(k, 1.0))
+    now = branches[at_one] if at_one < len(k) and k[at_one] == 1.0 else _roots_batch(num, den, np.array([1.0]))[0]
+    # slowest first; of a complex pair, the upper pole only
     poles = tuple(
-        ClosedLoopPole(complex(x), float(-x.real / abs(x)) if abs(x) > 0 else 1.0, float(abs(x)))
-        for x in now
+        ClosedLoopPole(x, -x.real / abs(x) if abs(x) > 0 else 1.0, abs(x))
+        for x in sorted(now.tolist(), key=lambda x: (abs(x), abs(x.imag)))
         if x.imag >= -1e-12 * max(1.0, abs(x))
     )
     note = f"dead time replaced by a Pade approximation of order {used}" if used else "exact (no dead time)"

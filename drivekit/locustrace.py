@@ -1,0 +1,314 @@
+"""Branches of a root locus followed gain by gain: a compiled predictor-corrector.
+
+The closed-loop poles are the roots of P(s; K) = D(s) + K N(s). From the
+roots at one gain, the roots at the next gain are predicted by a
+second-order Taylor step (in ln K, or in K from K = 0) and corrected by
+Newton's method on P. A step is taken only when every root converges to
+round-off within its own neighbourhood (the correction moves it less than a
+quarter of the distance to the nearest other prediction) and the roots'
+sum agrees with Vieta's formula, so two branches can neither swap nor
+merge; otherwise the step is split. Where splitting does not settle it
+(just beyond a break point, where two roots have met and Newton's method
+slows down) the roots at that gain are computed as eigenvalues of the
+companion matrix and paired with the predictions.
+
+Path following of this kind: Allgower & Georg, *Introduction to Numerical
+Continuation Methods*, SIAM Classics in Applied Mathematics 45, 2003,
+Ch. 2 (predictor-corrector) and §6.1 (step-length control); the branch
+slope ds/dK = -N(s)/P'(s) (Ogata, *Modern Control Engineering*, 5th ed.,
+§6-2).
+"""
+
+from __future__ import annotations
+
+import numba
+import numpy as np
+
+__all__ = ["trace_branches"]
+
+_MAX_NEWTON = 12  # Newton iterations per root and step
+_MAX_TRIES = 8  # attempts (splits included) per grid interval before eigenvalues decide
+_MAX_DEPTH = 6  # nested splits of one interval
+_BASIN = 0.25  # a correction may move a root at most this share of the distance to its nearest neighbour
+_TOL = 1e-13  # Newton converged: error left below this share of the size of the roots
+
+_jit = numba.njit(cache=True, nogil=True)
+
+
+@_jit
+def _abs2(z: complex) -> float:
+    return z.real * z.real + z.imag * z.imag
+
+
+@_jit
+def _horner2(c: np.ndarray, z: complex) -> tuple[complex, complex]:
+    """P(z) and P'(z) of the polynomial with coefficients c (highest first)."""
+    p = c[0] + 0j
+    d = 0j
+    for i in range(1, len(c)):
+        d = d * z + p
+        p = p * z + c[i]
+    return p, d
+
+
+@_jit
+def _horner3(c: np.ndarray, z: complex) -> tuple[complex, complex]:
+    """P'(z) and P''(z)/2 of the polynomial with coefficients c (highest first)."""
+    p = c[0] + 0j
+    d = 0j
+    h = 0j
+    for i in range(1, len(c)):
+        h = h * z + d
+        d = d * z + p
+        p = p * z + c[i]
+    return d, h
+
+
+@_jit
+def _coefficients(den: np.ndarray, num: np.ndarray, k: float, out: np.ndarray) -> bool:
+    """Coefficients of D + K N, scaled to a leading 1, into ``out``; False when the leading one vanishes."""
+    lead = den[0] + k * num[0]
+    if lead == 0.0 or not np.isfinite(lead):
+        return False
+    for i in range(len(den)):
+        out[i] = (den[i] + k * num[i]) / lead
+    return True
+
+
+@_jit
+def _predict(
+    num: np.ndarray, c: np.ndarray, lead: float, z: np.ndarray, k0: float, k1: float, out: np.ndarray, w: np.ndarray
+) -> None:
+    """Roots at k1 from the roots z at k0: a second-order Taylor step in u = ln K (in K from K = 0).
+
+    ``c`` holds the coefficients of D + k0 N divided by their leading one,
+    ``lead``; ``w`` is scratch space of shape (12, n). Differentiating
+    P(s(K), K) = 0 with P = D + K N gives P_s s' + N = 0 and
+    P_ss s'^2 + 2 N_s s' + P_s s'' = 0. A root where P_s vanishes (two
+    roots together) is predicted to stay.
+    """
+    n = len(z)
+    u = np.log(k1 / k0) if k0 > 0.0 else 0.0
+    h = k1 - k0
+    sr, si = w[0], w[1]
+    nr, ni, ndr, ndi = w[2], w[3], w[4], w[5]  # N and N'
+    pr, pi, dr, di = w[6], w[7], w[8], w[9]  # P and P'
+    hr, hi = w[10], w[11]  # P''/2
+    for i in range(n):
+        sr[i], si[i] = z[i].real, z[i].imag
+        nr[i], ni[i], ndr[i], ndi[i] = num[0], 0.0, 0.0, 0.0
+        pr[i], pi[i], dr[i], di[i] = c[0], 0.0, 0.0, 0.0
+        hr[i], hi[i] = 0.0, 0.0
+    # Horner's rule in real arithmetic, the roots side by side
+    for j in range(1, len(c)):
+        a, b = num[j], c[j]
+        for i in range(n):
+            x, y = sr[i], si[i]
+            hr[i], hi[i] = hr[i] * x - hi[i] * y + dr[i], hr[i] * y + hi[i] * x + di[i]
+            dr[i], di[i] = dr[i] * x - di[i] * y + pr[i], dr[i] * y + di[i] * x + pi[i]
+            pr[i], pi[i] = pr[i] * x - pi[i] * y + b, pr[i] * y + pi[i] * x
+            ndr[i], ndi[i] = ndr[i] * x - ndi[i] * y + nr[i], ndr[i] * y + ndi[i] * x + ni[i]
+            nr[i], ni[i] = nr[i] * x - ni[i] * y + a, nr[i] * y + ni[i] * x
+    for i in range(n):
+        slope = complex(dr[i], di[i]) * lead
+        size2 = _abs2(slope)
+        if not (size2 > 0.0 and size2 < np.inf):
+            out[i] = z[i]
+            continue
+        inv = slope.conjugate() * (-1.0 / size2)  # -1/P_s
+        d1 = complex(nr[i], ni[i]) * inv
+        d2 = (2.0 * complex(hr[i], hi[i]) * lead * d1 * d1 + 2.0 * complex(ndr[i], ndi[i]) * d1) * inv
+        if k0 > 0.0:
+            du = k0 * d1  # ds/du; d2s/du2 = du + k0**2 d2
+            out[i] = z[i] + u * (du + 0.5 * u * (du + k0 * k0 * d2))
+        else:
+            out[i] = z[i] + h * (d1 + 0.5 * h * d2)
+
+
+@_jit
+def _correct(c: np.ndarray, guess: np.ndarray, out: np.ndarray, w: np.ndarray) -> bool:
+    """Newton's method on the polynomial c from each guess into ``out``; True when every root converged in its basin.
+
+    Converged when the step is at round-off, or when the error left after
+    it, about (n - 1) step**2 / gap for a simple root (gap: distance to the
+    nearest other root), is below ``_TOL`` of the size of the roots. ``w``
+    is scratch space of shape (10, n).
+    """
+    n = len(guess)
+    sr, si, pr, pi, dr, di, gap2, quad = w[0], w[1], w[2], w[3], w[4], w[5], w[6], w[7]
+    scale = 1.0
+    for i in range(n):
+        sr[i], si[i] = guess[i].real, guess[i].imag
+        scale = max(scale, 1.0 + np.sqrt(_abs2(guess[i])))
+    tiny2 = (_TOL * scale) ** 2
+    m2 = max(n - 1, 1) ** 2
+    for i in range(n):
+        g = np.inf
+        for j in range(n):
+            if j != i:
+                g = min(g, _abs2(guess[i] - guess[j]))
+        gap2[i] = g
+        quad[i] = tiny2 * g / m2  # converged when step**4 (n - 1)**2 <= (tol scale gap)**2
+    active = np.ones(n, np.bool_)
+    left = n
+    for _ in range(_MAX_NEWTON):
+        for i in range(n):
+            pr[i], pi[i], dr[i], di[i] = c[0], 0.0, 0.0, 0.0
+        for j in range(1, len(c)):  # P and P' by Horner's rule, the roots side by side
+            b = c[j]
+            for i in range(n):
+                x, y = sr[i], si[i]
+                dr[i], di[i] = dr[i] * x - di[i] * y + pr[i], dr[i] * y + di[i] * x + pi[i]
+                pr[i], pi[i] = pr[i] * x - pi[i] * y + b, pr[i] * y + pi[i] * x
+        for i in range(n):
+            if active[i]:
+                q = dr[i] * dr[i] + di[i] * di[i]
+                if not (q > 0.0 and q < np.inf):
+                    return False
+                # step = P / P'
+                step_r = (pr[i] * dr[i] + pi[i] * di[i]) / q
+                step_i = (pi[i] * dr[i] - pr[i] * di[i]) / q
+                a2 = step_r * step_r + step_i * step_i
+                if not a2 < np.inf:
+                    return False
+                sr[i] -= step_r
+                si[i] -= step_i
+                if a2 <= tiny2 or a2 * a2 <= quad[i]:
+                    active[i] = False
+                    left -= 1
+        if left == 0:
+            break
+    if left:
+        return False
+    total = 0j
+    for i in range(n):
+        out[i] = complex(sr[i], si[i])
+        if _abs2(out[i] - guess[i]) > _BASIN * _BASIN * gap2[i]:  # each root stays near its own prediction
+            return False
+        total += out[i]
+    # Vieta: the roots sum to minus the second coefficient (two roots found twice leave it off)
+    return n == 0 or abs(total + c[1]) <= 1e-10 * scale * n
+
+
+@_jit
+def _pair(roots: np.ndarray, ref: np.ndarray, out: np.ndarray) -> None:
+    """Roots into ``out`` in the order of ref, nearest pairs first (each root once)."""
+    n = len(ref)
+    used_r = np.zeros(n, np.bool_)
+    used_e = np.zeros(n, np.bool_)
+    for _ in range(n):
+        best = np.inf
+        bi, bj = -1, -1
+        for i in range(n):
+            if used_r[i]:
+                continue
+            for j in range(n):
+                if not used_e[j]:
+                    dist = _abs2(ref[i] - roots[j])
+                    if bi < 0 or dist < best:
+                        best, bi, bj = dist, i, j
+        out[bi] = roots[bj]
+        used_r[bi] = True
+        used_e[bj] = True
+
+
+@_jit
+def _eigen_roots(c: np.ndarray) -> np.ndarray:
+    """Roots of the polynomial c (leading coefficient 1) as eigenvalues of its companion matrix."""
+    n = len(c) - 1
+    comp = np.zeros((n, n), np.complex128)
+    for j in range(n):
+        comp[0, j] = -c[j + 1]
+    for i in range(1, n):
+        comp[i, i - 1] = 1.0
+    return np.linalg.eigvals(comp)
+
+
+@_jit
+def _split(k0: float, k1: float) -> float:
+    """A gain between k0 and k1: their geometric mean above K = 0, else a sixteenth of the way."""
+    if k0 > 0.0:
+        return np.sqrt(k0 * k1)
+    return k0 + (k1 - k0) / 16.0
+
+
+@_jit
+def trace_branches(
+    den: np.ndarray, num: np.ndarray, gains: np.ndarray, fixed: np.ndarray, fixed_roots: np.ndarray
+) -> np.ndarray:
+    """Roots of den + K num at each of the sorted gains, each column one branch.
+
+    Parameters
+    ----------
+    den : numpy.ndarray
+        D(s), highest power first, degree n >= 1. [-]
+    num : numpy.ndarray
+        N(s), padded with leading zeros to the length of den. [-]
+    gains : numpy.ndarray
+        Gain factors K >= 0, increasing. [-]
+    fixed : numpy.ndarray
+        Increasing indices of gains whose roots are given (the first gain
+        always, and the break points, where roots coincide). [-]
+    fixed_roots : numpy.ndarray
+        The roots at those gains, shape (len(fixed), n), complex, in any
+        order. [1/s]
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (len(gains), n), complex; a row of NaN where the degree drops. [1/s]
+    """
+    n = len(den) - 1
+    G = len(gains)
+    out = np.empty((G, n), np.complex128)
+    c0 = np.empty(n + 1)  # at the gain reached
+    c1 = np.empty(n + 1)  # at the gain tried
+    guess = np.empty(n, np.complex128)
+    trial = np.empty(n, np.complex128)
+    stack = np.empty(_MAX_DEPTH + 1)
+    work = np.empty((12, n))
+    z = fixed_roots[0].copy()
+    k = gains[0]
+    out[0] = z
+    _coefficients(den, num, k, c0)
+    lead0 = den[0] + k * num[0]
+    f = 1
+    for g in range(1, G):
+        target = gains[g]
+        is_fixed = f < len(fixed) and fixed[f] == g
+        if not _coefficients(den, num, target, c1):
+            out[g] = np.nan
+            f += is_fixed
+            continue
+        depth = 0
+        stack[0] = target
+        tries = 0
+        while depth >= 0:
+            tgt = stack[depth]
+            _predict(num, c0, lead0, z, k, tgt, guess, work)
+            for i in range(n):  # a prediction that failed stays where it was
+                if not _abs2(guess[i]) < np.inf:
+                    guess[i] = z[i]
+            _coefficients(den, num, tgt, c1)
+            if is_fixed and depth == 0:
+                _pair(fixed_roots[f], guess, trial)
+                ok = True
+            else:
+                tries += 1
+                ok = _correct(c1, guess, trial, work)
+                if not ok and (tries >= _MAX_TRIES or depth >= _MAX_DEPTH):
+                    # splitting does not settle it: eigenvalues at this gain, paired with the predictions
+                    _pair(_eigen_roots(c1), guess, trial)
+                    ok = True
+            if ok:
+                z[:] = trial
+                k = tgt
+                c0[:] = c1
+                lead0 = den[0] + k * num[0]
+                depth -= 1
+            else:
+                depth += 1
+                stack[depth] = _split(k, tgt)
+        f += is_fixed
+        out[g] = z
+    return out
