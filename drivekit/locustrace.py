@@ -31,6 +31,7 @@ _MAX_TRIES = 8  # attempts (splits included) per grid interval before eigenvalue
 _MAX_DEPTH = 6  # nested splits of one interval
 _BASIN = 0.25  # a correction may move a root at most this share of the distance to its nearest neighbour
 _TOL = 1e-13  # Newton converged: error left below this share of the size of the roots
+_REACH = 3.0  # the history curve predicts up to this many of its own lengths (in ln K) from its start
 
 _jit = numba.njit(cache=True, nogil=True)
 
@@ -191,6 +192,84 @@ def _correct(c: np.ndarray, guess: np.ndarray, out: np.ndarray, w: np.ndarray) -
 
 
 @_jit
+def _slopes(num: np.ndarray, lead: float, z: np.ndarray, k: float, w: np.ndarray, out: np.ndarray) -> bool:
+    """Branch slopes ds/du = -K N(s) / P_s(s) (u = ln K) at the roots z into ``out``; False if one is not finite.
+
+    P_s / ``lead`` at the roots is read from rows 4 and 5 of ``w``, where the
+    last Newton sweep of :func:`_correct` left it.
+    """
+    for i in range(len(z)):
+        s = z[i]
+        nv = num[0] + 0j
+        for j in range(1, len(num)):
+            nv = nv * s + num[j]
+        d = complex(w[4, i], w[5, i]) * lead
+        if not (_abs2(d) > 0.0 and _abs2(d) < np.inf):
+            return False
+        out[i] = -k * nv / d
+        if not _abs2(out[i]) < np.inf:
+            return False
+    return True
+
+
+@_jit
+def _conjugate_pairs(z: np.ndarray) -> None:
+    """Make the roots of the real polynomial real or exact conjugate pairs, in place.
+
+    A root is paired with the root nearest its mirror image when that one is
+    nearer than the root's own mirror image, and the pair averaged; a root
+    without a partner is real, and loses the rounding left in its imaginary
+    part.
+    """
+    n = len(z)
+    done = np.zeros(n, np.bool_)
+    for i in range(n):
+        if done[i] or z[i].imag == 0.0:
+            continue
+        mirror = z[i].conjugate()
+        best = _abs2(z[i] - mirror)
+        j = -1
+        for q in range(n):
+            if q != i and not done[q]:
+                dist = _abs2(z[q] - mirror)
+                if dist < best:
+                    best, j = dist, q
+        if j >= 0:
+            mean = 0.5 * (z[i] + z[j].conjugate())
+            z[i] = mean
+            z[j] = mean.conjugate()
+            done[j] = True
+        else:  # a root without a partner is real
+            z[i] = z[i].real
+        done[i] = True
+
+
+@_jit
+def _extrapolate(
+    z0: np.ndarray, m0: np.ndarray, u0: float, z1: np.ndarray, m1: np.ndarray, u1: float, u2: float, out: np.ndarray
+) -> bool:
+    """Roots at u2 from the cubic Hermite curve through (u0, z0, slope m0) and (u1, z1, m1); False when u2 is too far.
+
+    Third-order accurate in the step, from values the tracing has already
+    computed (no further polynomial evaluation).
+    """
+    du = u1 - u0
+    if not du > 0.0:
+        return False
+    t = (u2 - u0) / du
+    if not (t > 1.0 and t <= _REACH):
+        return False
+    r = 1.0 - t
+    h00 = (1.0 + 2.0 * t) * r * r
+    h10 = t * r * r * du
+    h01 = t * t * (3.0 - 2.0 * t)
+    h11 = t * t * (t - 1.0) * du
+    for i in range(len(z0)):
+        out[i] = h00 * z0[i] + h10 * m0[i] + h01 * z1[i] + h11 * m1[i]
+    return True
+
+
+@_jit
 def _pair(roots: np.ndarray, ref: np.ndarray, out: np.ndarray) -> None:
     """Roots into ``out`` in the order of ref, nearest pairs first (each root once)."""
     n = len(ref)
@@ -222,6 +301,29 @@ def _eigen_roots(c: np.ndarray) -> np.ndarray:
     for i in range(1, n):
         comp[i, i - 1] = 1.0
     return np.linalg.eigvals(comp)
+
+
+@_jit
+def _polish(c: np.ndarray, z: np.ndarray) -> None:
+    """A few Newton steps on the polynomial c at each root of z, in place, each kept only where it lowers |P|.
+
+    Eigenvalues of the companion matrix are accurate relative to the
+    matrix, which can leave small roots of a polynomial with large
+    coefficients short of round-off; the guard keeps coinciding roots,
+    where Newton's method wanders, as they were.
+    """
+    for i in range(len(z)):
+        s = z[i]
+        p, d = _horner2(c, s)
+        for _ in range(3):
+            if not (_abs2(d) > 0.0 and _abs2(d) < np.inf):
+                break
+            t = s - p / d
+            pt, dt = _horner2(c, t)
+            if not _abs2(pt) < _abs2(p):
+                break
+            s, p, d = t, pt, dt
+        z[i] = s
 
 
 @_jit
@@ -267,11 +369,20 @@ def trace_branches(
     trial = np.empty(n, np.complex128)
     stack = np.empty(_MAX_DEPTH + 1)
     work = np.empty((12, n))
+    # the point reached (k, z, slopes m) and the one before it (u_prev = ln K, z_prev, m_prev)
     z = fixed_roots[0].copy()
     k = gains[0]
-    out[0] = z
-    _coefficients(den, num, k, c0)
+    m = np.empty(n, np.complex128)
+    z_prev = np.empty(n, np.complex128)
+    m_prev = np.empty(n, np.complex128)
+    m_new = np.empty(n, np.complex128)
+    u_prev = 0.0
     lead0 = den[0] + k * num[0]
+    if _coefficients(den, num, k, c0):
+        _polish(c0, z)
+    out[0] = z
+    has_m = False
+    has_prev = False
     f = 1
     for g in range(1, G):
         target = gains[g]
@@ -285,30 +396,45 @@ def trace_branches(
         tries = 0
         while depth >= 0:
             tgt = stack[depth]
-            _predict(num, c0, lead0, z, k, tgt, guess, work)
+            if not (has_prev and has_m and _extrapolate(z_prev, m_prev, u_prev, z, m, np.log(k), np.log(tgt), guess)):
+                _predict(num, c0, lead0, z, k, tgt, guess, work)
             for i in range(n):  # a prediction that failed stays where it was
                 if not _abs2(guess[i]) < np.inf:
                     guess[i] = z[i]
             _coefficients(den, num, tgt, c1)
+            newton = False
             if is_fixed and depth == 0:
                 _pair(fixed_roots[f], guess, trial)
+                _polish(c1, trial)
                 ok = True
             else:
                 tries += 1
-                ok = _correct(c1, guess, trial, work)
+                ok = newton = _correct(c1, guess, trial, work)
                 if not ok and (tries >= _MAX_TRIES or depth >= _MAX_DEPTH):
                     # splitting does not settle it: eigenvalues at this gain, paired with the predictions
                     _pair(_eigen_roots(c1), guess, trial)
+                    _polish(c1, trial)
                     ok = True
             if ok:
+                lead1 = den[0] + tgt * num[0]
+                # slopes for the next extrapolation only where Newton's method converged (not beside break points)
+                has_new = newton and tgt > 0.0 and _slopes(num, lead1, trial, tgt, work, m_new)
+                has_prev = has_m and k > 0.0
+                if has_prev:
+                    u_prev = np.log(k)
+                    z_prev[:] = z
+                    m_prev[:] = m
                 z[:] = trial
+                m[:] = m_new
+                has_m = has_new
                 k = tgt
                 c0[:] = c1
-                lead0 = den[0] + k * num[0]
+                lead0 = lead1
                 depth -= 1
             else:
                 depth += 1
                 stack[depth] = _split(k, tgt)
         f += is_fixed
+        _conjugate_pairs(z)
         out[g] = z
     return out

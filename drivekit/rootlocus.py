@@ -202,24 +202,19 @@ def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndar
     return np.linalg.eigvals(comp)
 
 
-def _locus_roots(
-    num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any = (), poles: np.ndarray | None = None
-) -> np.ndarray:
+def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any = ()) -> np.ndarray:
     """Continuous branches of den + K num = 0 for sorted gains K.
 
-    The roots at the first gain (the open-loop ``poles`` when it is 0 and
-    they are given), and at the two grid gains from each of the ``hard``
-    gains (break points, where roots coincide) upwards, are eigenvalues of
-    companion matrices; every other gain's roots are followed from the gain
-    before by the predictor-corrector in :mod:`drivekit.locustrace`.
+    The roots at the first gain, and at the two grid gains from each of the
+    ``hard`` gains (break points, where roots coincide) upwards, are
+    eigenvalues of companion matrices; every other gain's roots are followed
+    from the gain before by the predictor-corrector in
+    :mod:`drivekit.locustrace`.
     """
     G = len(gains)
     at = np.searchsorted(gains, np.asarray(hard, float)).tolist()
-    start = poles is not None and gains[0] == 0.0
-    fixed = np.array(sorted({0, *(i for i in at if i < G), *(i + 1 for i in at if i + 1 < G)}))
-    roots = _roots_batch(num, den, gains[fixed[1:] if start else fixed])
-    if start:
-        roots = np.concatenate([np.asarray(poles, complex)[None, :], roots])
+    fixed = np.array(sorted({0, *(i for i in at if i < G), *(i + 1 for i in at if i + 1 < G)}), dtype=np.int64)
+    roots = np.ascontiguousarray(_roots_batch(num, den, gains[fixed]), complex)
     nump = np.concatenate([np.zeros(len(den) - len(num)), num])
     return trace_branches(den, nump, gains, fixed, roots)
 
@@ -344,7 +339,7 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
         if k.ndim != 1 or np.any(k < 0) or not np.all(np.isfinite(k)):
             raise ParameterError("`gains`: expected a 1-D array of finite gain factors >= 0")
         k = np.sort(k)
-    branches = _locus_roots(num, den, k, [b.gain for b in breaks], p_ol)
+    branches = _locus_roots(num, den, k, [b.gain for b in breaks])
     q = n - m
     centroid = (sum(p_ol.tolist()).real - sum(z_ol.tolist()).real) / q if q > 0 else math.nan
     angles = tuple((2 * i + 1) * 180.0 / q for i in range(q)) if q > 0 else ()

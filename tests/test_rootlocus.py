@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 import scipy.optimize
 
-from drivekit.loop import as_linear
+from drivekit.loop import as_linear, zpk
 from drivekit.rootlocus import root_locus
 from drivekit.units import ParameterError
 
@@ -118,3 +118,52 @@ def test_every_gain_against_python_control_root_locus_map(num, den, delay):
     # every branch moves continuously: successive points are near compared with the size of the roots there
     step = np.abs(np.diff(rl.branches, axis=0)) / (1.0 + np.max(np.abs(rl.branches[1:]), axis=1, keepdims=True))
     assert np.max(step) < 0.2
+
+
+def _random_loop(rng):
+    """Random loop numerator and denominator: integrators, repeated poles, light damping, biproper loops."""
+    n = int(rng.integers(1, 12))
+    m = int(rng.integers(0, n + 1))
+    p = rng.normal(size=n) * 10 ** rng.uniform(-1, 2, size=n)
+    if n >= 2 and rng.random() < 0.4:
+        p[0] = p[1]
+    if rng.random() < 0.3:
+        p[-1] = 0.0
+    den = np.real(np.poly(p))
+    if n >= 3 and rng.random() < 0.4:
+        wn, zeta = 10 ** rng.uniform(-1, 2), rng.uniform(0.01, 0.9)
+        den = np.polymul(np.real(np.poly(p[2:])), [1.0, 2 * zeta * wn, wn * wn])
+    num = np.real(np.poly(rng.normal(size=m) * 10 ** rng.uniform(-1, 2, size=m))) * 10 ** rng.uniform(-2, 2)
+    return num, den
+
+
+def test_every_branch_point_is_a_root_to_round_off_on_random_loops():
+    # Each point s is a root of D(s) + K N(s) up to rounding: |P(s)| within 1e-12 of the size of P
+    # over the disc holding the roots (a norm-wise backward error; Higham, Accuracy and Stability of
+    # Numerical Algorithms, 2nd ed., 2002, §5.1), and the roots at each gain are all the roots:
+    # python-control root_locus_map on the same polynomial, to 1e-9 of the size of the roots where the
+    # roots are apart, and to 1e-5 where two nearly coincide (any answer there is only defined to about
+    # the square root of the machine epsilon).
+    rng = np.random.default_rng(2026)
+    for case in range(60):
+        num, den = _random_loop(rng)
+        model = as_linear(control.tf(num, den))
+        gains = None if case % 4 else np.sort(rng.uniform(0.0, 50.0, size=int(rng.integers(2, 30))))
+        rl = root_locus(model, gains=gains)
+        # the polynomials of the loop as drivekit factors it (poles, zeros and gain of the model)
+        z, p, k_lead = zpk(model)
+        den_used = np.real(np.poly(p))
+        num_used = k_lead * np.atleast_1d(np.real(np.poly(z)))
+        pad = np.concatenate([np.zeros(len(den_used) - len(num_used)), num_used])
+        loci = np.asarray(control.root_locus_map(control.tf(num_used, den_used), rl.gains).loci).reshape(len(rl.gains), -1)
+        for k, row, theirs in zip(rl.gains, rl.branches, loci, strict=True):
+            c = den_used + k * pad
+            if c[0] == 0.0:
+                continue
+            reach = max(1.0, float(np.max(np.abs(row))))
+            assert np.all(np.abs(np.polyval(c, row)) <= 1e-12 * np.polyval(np.abs(c), reach)), (case, k)
+            apart = np.abs(theirs[:, None] - theirs[None, :])[~np.eye(len(theirs), dtype=bool)]
+            tol = 1e-9 if np.min(apart, initial=np.inf) > 1e-3 * (1.0 + np.max(np.abs(theirs))) else 1e-5
+            assert _same_roots(row, theirs, tol), (case, k)
+        if gains is None:  # complex roots in exact conjugate pairs
+            assert np.array_equal(np.sort_complex(rl.branches[-1]), np.sort_complex(rl.branches[-1].conj()))
