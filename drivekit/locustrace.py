@@ -127,13 +127,14 @@ def _predict(
 
 
 @_jit
-def _correct(c: np.ndarray, guess: np.ndarray, out: np.ndarray, w: np.ndarray) -> bool:
+def _correct(c: np.ndarray, guess: np.ndarray, out: np.ndarray, w: np.ndarray, held: np.ndarray) -> bool:
     """Newton's method on the polynomial c from each guess into ``out``; True when every root converged in its basin.
 
     Converged when the step is at round-off, or when the error left after
     it, about (n - 1) step**2 / gap for a simple root (gap: distance to the
-    nearest other root), is below ``_TOL`` of the size of the roots. ``w``
-    is scratch space of shape (10, n).
+    nearest other root), is below ``_TOL`` of the size of the roots. Roots
+    marked in ``held`` keep their guess (a double root already known).
+    ``w`` is scratch space of shape (10, n).
     """
     n = len(guess)
     sr, si, pr, pi, dr, di, gap2, quad = w[0], w[1], w[2], w[3], w[4], w[5], w[6], w[7]
@@ -150,9 +151,11 @@ def _correct(c: np.ndarray, guess: np.ndarray, out: np.ndarray, w: np.ndarray) -
                 g = min(g, _abs2(guess[i] - guess[j]))
         gap2[i] = g
         quad[i] = tiny2 * g / m2  # converged when step**4 (n - 1)**2 <= (tol scale gap)**2
-    active = np.ones(n, np.bool_)
-    left = n
+    active = ~held
+    left = n - int(np.sum(held))
     for _ in range(_MAX_NEWTON):
+        if left == 0:
+            break
         for i in range(n):
             pr[i], pi[i], dr[i], di[i] = c[0], 0.0, 0.0, 0.0
         for j in range(1, len(c)):  # P and P' by Horner's rule, the roots side by side
@@ -177,8 +180,6 @@ def _correct(c: np.ndarray, guess: np.ndarray, out: np.ndarray, w: np.ndarray) -
                 if a2 <= tiny2 or a2 * a2 <= quad[i]:
                     active[i] = False
                     left -= 1
-        if left == 0:
-            break
     if left:
         return False
     total = 0j
@@ -335,8 +336,25 @@ def _split(k0: float, k1: float) -> float:
 
 
 @_jit
+def _departure(num: np.ndarray, c: np.ndarray, lead: float, sb: float, kb: float, k1: float) -> complex:
+    """Offset of the two roots leaving the double root sb at gain kb, at gain k1.
+
+    From P(sb + d, kb + h) = P_ss d**2 / 2 + N h + ... = 0 (P and P_s vanish
+    at a break point): d = sqrt(-2 N(sb) h / P_ss(sb)), along the real axis or
+    across it (Ogata, *Modern Control Engineering*, 5th ed., §6-2: branches
+    leave a break point at +-90 deg to each other). ``c`` holds D + kb N
+    divided by ``lead``.
+    """
+    nv, _ = _horner2(num, sb + 0j)
+    _, half = _horner3(c, sb + 0j)  # P_ss / 2 / lead
+    if half == 0:
+        return 0j
+    return np.sqrt(-nv * (k1 - kb) / (half * lead) + 0j)
+
+
+@_jit
 def trace_branches(
-    den: np.ndarray, num: np.ndarray, gains: np.ndarray, fixed: np.ndarray, fixed_roots: np.ndarray
+    den: np.ndarray, num: np.ndarray, gains: np.ndarray, start: np.ndarray, breaks: np.ndarray, spots: np.ndarray
 ) -> np.ndarray:
     """Roots of den + K num at each of the sorted gains, each column one branch.
 
@@ -348,12 +366,14 @@ def trace_branches(
         N(s), padded with leading zeros to the length of den. [-]
     gains : numpy.ndarray
         Gain factors K >= 0, increasing. [-]
-    fixed : numpy.ndarray
-        Increasing indices of gains whose roots are given (the first gain
-        always, and the break points, where roots coincide). [-]
-    fixed_roots : numpy.ndarray
-        The roots at those gains, shape (len(fixed), n), complex, in any
-        order. [1/s]
+    start : numpy.ndarray
+        The n roots at gains[0], complex. [1/s]
+    breaks : numpy.ndarray
+        Gains of the break points, increasing; there two branches meet at a
+        double root, which is set there, and leave it along the directions
+        of :func:`_departure`. [-]
+    spots : numpy.ndarray
+        The break points, real, in the order of ``breaks``. [1/s]
 
     Returns
     -------
@@ -369,8 +389,10 @@ def trace_branches(
     trial = np.empty(n, np.complex128)
     stack = np.empty(_MAX_DEPTH + 1)
     work = np.empty((12, n))
+    free = np.zeros(n, np.bool_)
+    held = np.zeros(n, np.bool_)
     # the point reached (k, z, slopes m) and the one before it (u_prev = ln K, z_prev, m_prev)
-    z = fixed_roots[0].copy()
+    z = start.copy()
     k = gains[0]
     m = np.empty(n, np.complex128)
     z_prev = np.empty(n, np.complex128)
@@ -383,58 +405,81 @@ def trace_branches(
     out[0] = z
     has_m = False
     has_prev = False
-    f = 1
+    pair_a, pair_b = -1, -1  # the two roots at the break point just reached
+    nb = 0
+    while nb < len(breaks) and breaks[nb] <= k:
+        nb += 1
     for g in range(1, G):
         target = gains[g]
-        is_fixed = f < len(fixed) and fixed[f] == g
         if not _coefficients(den, num, target, c1):
             out[g] = np.nan
-            f += is_fixed
             continue
-        depth = 0
-        stack[0] = target
-        tries = 0
-        while depth >= 0:
-            tgt = stack[depth]
-            if not (has_prev and has_m and _extrapolate(z_prev, m_prev, u_prev, z, m, np.log(k), np.log(tgt), guess)):
-                _predict(num, c0, lead0, z, k, tgt, guess, work)
-            for i in range(n):  # a prediction that failed stays where it was
-                if not _abs2(guess[i]) < np.inf:
-                    guess[i] = z[i]
-            _coefficients(den, num, tgt, c1)
-            newton = False
-            if is_fixed and depth == 0:
-                _pair(fixed_roots[f], guess, trial)
-                _polish(c1, trial)
-                ok = True
-            else:
+        while k < target:
+            # the next stop: a break point on the way, or the target
+            stop, spot = target, np.nan
+            if nb < len(breaks) and breaks[nb] <= target:
+                stop, spot = breaks[nb], spots[nb]
+                nb += 1
+            depth = 0
+            stack[0] = stop
+            tries = 0
+            while depth >= 0:
+                tgt = stack[depth]
+                if not (
+                    has_prev and has_m and _extrapolate(z_prev, m_prev, u_prev, z, m, np.log(k), np.log(tgt), guess)
+                ):
+                    _predict(num, c0, lead0, z, k, tgt, guess, work)
+                for i in range(n):  # a prediction that failed stays where it was
+                    if not _abs2(guess[i]) < np.inf:
+                        guess[i] = z[i]
+                if pair_a >= 0:  # leaving a double root
+                    d = _departure(num, c0, lead0, z[pair_a].real, k, tgt)
+                    guess[pair_a] = z[pair_a] + d
+                    guess[pair_b] = z[pair_b] - d
+                _coefficients(den, num, tgt, c1)
+                arrive = depth == 0 and not np.isnan(spot) and n >= 2
+                mask = free
+                a = b = -1
+                if arrive:  # the two roots predicted nearest the break point meet there
+                    a = b = -1
+                    for i in range(n):
+                        dist = _abs2(guess[i] - spot)
+                        if a < 0 or dist < _abs2(guess[a] - spot):
+                            a, b = i, a
+                        elif b < 0 or dist < _abs2(guess[b] - spot):
+                            b = i
+                    held[:] = False
+                    held[a] = held[b] = True
+                    guess[a] = guess[b] = spot
+                    mask = held
                 tries += 1
-                ok = newton = _correct(c1, guess, trial, work)
+                ok = newton = _correct(c1, guess, trial, work, mask)
                 if not ok and (tries >= _MAX_TRIES or depth >= _MAX_DEPTH):
                     # splitting does not settle it: eigenvalues at this gain, paired with the predictions
                     _pair(_eigen_roots(c1), guess, trial)
                     _polish(c1, trial)
+                    arrive = newton = False
                     ok = True
-            if ok:
-                lead1 = den[0] + tgt * num[0]
-                # slopes for the next extrapolation only where Newton's method converged (not beside break points)
-                has_new = newton and tgt > 0.0 and _slopes(num, lead1, trial, tgt, work, m_new)
-                has_prev = has_m and k > 0.0
-                if has_prev:
-                    u_prev = np.log(k)
-                    z_prev[:] = z
-                    m_prev[:] = m
-                z[:] = trial
-                m[:] = m_new
-                has_m = has_new
-                k = tgt
-                c0[:] = c1
-                lead0 = lead1
-                depth -= 1
-            else:
-                depth += 1
-                stack[depth] = _split(k, tgt)
-        f += is_fixed
+                if ok:
+                    lead1 = den[0] + tgt * num[0]
+                    # slopes for the next extrapolation only where Newton's method converged on simple roots
+                    has_new = newton and not arrive and tgt > 0.0 and _slopes(num, lead1, trial, tgt, work, m_new)
+                    has_prev = has_m and k > 0.0
+                    if has_prev:
+                        u_prev = np.log(k)
+                        z_prev[:] = z
+                        m_prev[:] = m
+                    z[:] = trial
+                    m[:] = m_new
+                    has_m = has_new
+                    pair_a, pair_b = (a, b) if arrive else (-1, -1)
+                    k = tgt
+                    c0[:] = c1
+                    lead0 = lead1
+                    depth -= 1
+                else:
+                    depth += 1
+                    stack[depth] = _split(k, tgt)
         _conjugate_pairs(z)
         out[g] = z
     return out

@@ -20,8 +20,18 @@ import numpy as np
 from .linear import LinearModel
 from .loop import Loop, as_linear
 from .metrics import LoadMetrics, StepMetrics, load_metrics, step_metric_arrays, step_metrics
-from .refine import GAIN_CROSSOVER, PHASE_CROSSOVER, S_PEAK, T_LEVEL, T_PEAK, crossing, loop_value, target
-from .responses import zpk, zpk_response
+from .refine import (
+    GAIN_CROSSOVER,
+    PHASE_CROSSOVER,
+    S_PEAK,
+    T_LEVEL,
+    T_PEAK,
+    crossing,
+    loop_value,
+    margin_samples,
+    target,
+)
+from .responses import zpk
 from .units import ParameterError
 
 __all__ = [
@@ -155,35 +165,6 @@ def _as_open_loop(L: Any, delay: float) -> LinearModel:
     return as_linear(L, delay)
 
 
-def margin_grid(z: np.ndarray, p: np.ndarray, delay: float) -> np.ndarray:
-    """Dense log grid from 1e-4 x the slowest corner to 1e3 x the fastest (also 1/delay). [rad/s]"""
-    roots = np.concatenate([z, p])
-    mags = np.abs(roots)
-    corners = list(mags[mags > 1e-12 * max(1.0, float(np.max(mags, initial=0.0)))])
-    if delay > 0:
-        corners.append(1.0 / delay)
-    if not corners:
-        corners = [1.0]
-    lo = math.log10(min(corners)) - 4.0
-    hi = math.log10(max(corners)) + 3.0
-    return np.logspace(lo, hi, int((hi - lo) * _PER_DECADE) + 1)
-
-
-def _refined_grid(w: np.ndarray, lw: np.ndarray, delay: float) -> np.ndarray:
-    """Linear points to add up to where |L| < 0.01 for good, so the dead time's phase turns < 22.5 deg per step."""
-    if delay <= 0:
-        return np.zeros(0)
-    big = np.nonzero(np.abs(lw) >= 0.01)[0]
-    if not len(big):
-        return np.zeros(0)
-    w_cut = w[min(big[-1] + 1, len(w) - 1)]
-    step = math.pi / (8.0 * delay)
-    count = int(min(w_cut / step, 20000))
-    if count < 2:
-        return np.zeros(0)
-    return np.linspace(step, w_cut, count)
-
-
 def _unstable_count(poles: np.ndarray, scale: float) -> int:
     return int(np.sum(poles.real > 1e-9 * scale))
 
@@ -241,19 +222,10 @@ class _Evaluated:
 
     def __init__(self, model: LinearModel) -> None:
         z, p, k = zpk(model)
-        w = margin_grid(z, p, model.delay)
-        lw = zpk_response(z, p, k, model.delay, w)
-        extra = _refined_grid(w, lw, model.delay)
-        if len(extra):
-            w = np.concatenate([w, extra])
-            lw = np.concatenate([lw, zpk_response(z, p, k, model.delay, extra)])
-            order = np.argsort(w, kind="stable")
-            w, lw = w[order], lw[order]
-            keep = np.concatenate([[True], w[1:] != w[:-1]])
-            w, lw = w[keep], lw[keep]
-        self.model, self.z, self.p, self.k, self.w, self.lw = model, z, p, k, w, lw
-        # the factors as the compiled refinement takes them
+        # the factors as the compiled grid and refinement take them
         self.factors = (np.ascontiguousarray(z, complex), np.ascontiguousarray(p, complex), float(k), model.delay)
+        w, lw = margin_samples(*self.factors, _PER_DECADE)
+        self.model, self.z, self.p, self.k, self.w, self.lw = model, z, p, k, w, lw
         self._unstable: int | None = None
 
     @property

@@ -1,7 +1,8 @@
-"""Points of a loop's frequency response refined to round-off, compiled.
+"""The open loop's frequency response on the margin grid, and points on it refined to round-off, compiled.
 
-The open loop is L(jw) = k prod(jw - z) / prod(jw - p) e^{-jw delay}. The
-functions here find, between two frequencies that bracket it, a gain
+The open loop is L(jw) = k prod(jw - z) / prod(jw - p) e^{-jw delay}.
+:func:`margin_samples` evaluates it on the dense grid the margins search;
+the other functions find, between two frequencies that bracket it, a gain
 crossover (|L| = 1), a phase crossover (Im L = 0), a peak of |S| or |T|
 (their slope in w is zero) or the frequency where |T| falls to a level,
 by Brent's method on exact evaluations of L.
@@ -18,7 +19,17 @@ import math
 import numba
 import numpy as np
 
-__all__ = ["GAIN_CROSSOVER", "PHASE_CROSSOVER", "S_PEAK", "T_LEVEL", "T_PEAK", "crossing", "loop_value", "target"]
+__all__ = [
+    "GAIN_CROSSOVER",
+    "PHASE_CROSSOVER",
+    "S_PEAK",
+    "T_LEVEL",
+    "T_PEAK",
+    "crossing",
+    "loop_value",
+    "margin_samples",
+    "target",
+]
 
 #: what :func:`crossing` looks for: |L| = 1
 GAIN_CROSSOVER = 0
@@ -167,3 +178,109 @@ def crossing(
         xcur += scur if abs(scur) > delta else (delta if sbis > 0.0 else -delta)
         fcur = target(kind, z, p, k, delay, level, xcur)
     return xcur
+
+
+@_jit
+def _response_at(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: float) -> complex:
+    """L(jw), the factors multiplied in the order of :func:`drivekit.responses.zpk_response`."""
+    s = 1j * w
+    v = k + 0j
+    for a in z:
+        v *= s - a
+    if len(p):
+        den = s - p[0]
+        for b in p[1:]:
+            den *= s - b
+        v /= den
+    if delay:
+        v *= np.exp(-1j * (w * delay))
+    return v
+
+
+@_jit
+def margin_samples(
+    z: np.ndarray, p: np.ndarray, k: float, delay: float, per_decade: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """Frequencies and L(jw) of the grid the margins are searched on.
+
+    A logarithmic grid, ``per_decade`` points a decade, from 1e-4 times the
+    slowest corner (pole, zero or 1/delay) to 1e3 times the fastest; with a
+    dead time, linear points pi/(8 delay) apart are added up to where |L|
+    stays below 0.01, so that the dead time's phase turns less than 22.5
+    deg between neighbours (which the stability count by the argument
+    principle relies on).
+
+    Parameters
+    ----------
+    z, p : numpy.ndarray
+        Zeros and poles, complex. [1/s]
+    k : float
+        Gain of the factored form.
+    delay : float
+        Dead time. [s]
+    per_decade : int
+        Points per decade of the logarithmic grid. [-]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        Increasing frequencies [rad/s] and L there (complex).
+    """
+    biggest = 0.0
+    for r in z:
+        biggest = max(biggest, abs(r))
+    for r in p:
+        biggest = max(biggest, abs(r))
+    small = 1e-12 * max(1.0, biggest)
+    low, high = np.inf, -np.inf
+    for r in z:
+        if abs(r) > small:
+            low, high = min(low, abs(r)), max(high, abs(r))
+    for r in p:
+        if abs(r) > small:
+            low, high = min(low, abs(r)), max(high, abs(r))
+    if delay > 0:
+        low, high = min(low, 1.0 / delay), max(high, 1.0 / delay)
+    if low > high:
+        low = high = 1.0
+    lo = math.log10(low) - 4.0
+    hi = math.log10(high) + 3.0
+    count = int((hi - lo) * per_decade) + 1
+    w = np.empty(count)
+    step = (hi - lo) / (count - 1)
+    for i in range(count):
+        w[i] = 10.0 ** (i * step + lo)
+    w[count - 1] = 10.0**hi
+    lw = np.empty(count, np.complex128)
+    last = -1
+    for i in range(count):
+        lw[i] = _response_at(z, p, k, delay, w[i])
+        if abs(lw[i]) >= 0.01:
+            last = i
+    if delay <= 0 or last < 0:
+        return w, lw
+    w_cut = w[min(last + 1, count - 1)]
+    spacing = math.pi / (8.0 * delay)
+    extra = int(min(w_cut / spacing, 20000.0))
+    if extra < 2:
+        return w, lw
+    # the linear points, merged into the logarithmic ones (a frequency on both kept once)
+    lin_step = (w_cut - spacing) / (extra - 1)
+    out_w = np.empty(count + extra)
+    out_l = np.empty(count + extra, np.complex128)
+    i = j = used = 0
+    previous = -1.0
+    while i < count or j < extra:
+        if j >= extra or (i < count and w[i] <= (w_cut if j == extra - 1 else j * lin_step + spacing)):
+            x, v = w[i], lw[i]
+            i += 1
+        else:
+            x = w_cut if j == extra - 1 else j * lin_step + spacing
+            v = _response_at(z, p, k, delay, x)
+            j += 1
+        if x != previous:
+            out_w[used] = x
+            out_l[used] = v
+            used += 1
+            previous = x
+    return out_w[:used], out_l[:used]

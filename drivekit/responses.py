@@ -45,6 +45,7 @@ import scipy.linalg
 
 from .linear import LinearModel
 from .loop import Loop, LoopMatrices, as_linear, zpk
+from .recursion import affine_orbit, pade_loop_matrix
 from .units import ParameterError
 
 __all__ = [
@@ -379,26 +380,9 @@ def _outer(a: np.ndarray, b: np.ndarray) -> np.ndarray:
 def _pade_loop_poles(m: LoopMatrices, order: int = 2) -> np.ndarray:
     """Poles of the loop with the dead time replaced by a Pade approximation (for the span only)."""
     num, den = pade_coefficients(m.delay, order)
-    # state-space of the Pade filter (controllable canonical form)
-    n = order
-    Ap = np.zeros((n, n))
-    Ap[0, :] = -den[1:]
-    Ap[1:, :-1] = np.eye(n - 1)
-    Bp = np.zeros(n)
-    Bp[0] = 1.0
-    Cp = num[1:] - num[0] * den[1:]
-    Dp = num[0]
-    nz = m.A.shape[0]
-    # e = r - (Cp w + Dp y0), y0 = c0 z + d00 e  (ignore feedthrough loops: d00 ~ 0 in practice)
-    c0, d00 = m.C[0], m.D[0, 0]
-    g = 1.0 / (1.0 + Dp * d00)
-    A = np.zeros((nz + n, nz + n))
-    be = m.B[:, 0]
-    A[:nz, :nz] = m.A - g * Dp * _outer(be, c0)
-    A[:nz, nz:] = -g * _outer(be, Cp)
-    A[nz:, :nz] = _outer(Bp, c0) * g
-    A[nz:, nz:] = Ap - g * d00 * _outer(Bp, Cp)
-    return np.linalg.eigvals(A)
+    return np.linalg.eigvals(
+        pade_loop_matrix(m.A, np.ascontiguousarray(m.B[:, 0]), np.ascontiguousarray(m.C[0]), float(m.D[0, 0]), num, den)
+    )
 
 
 def time_span(sys: Any) -> float:
@@ -440,26 +424,6 @@ def _zoh(A: np.ndarray, B: np.ndarray, h: float) -> tuple[np.ndarray, np.ndarray
     return E[:n, :n], E[:n, n:]
 
 
-def _affine_orbit(Phi: np.ndarray, gam: np.ndarray, x0: np.ndarray, count: int) -> np.ndarray:
-    """States x[k], k < count, of x[k+1] = Phi x[k] + gam, by doubling (log2(count) products)."""
-    n = Phi.shape[0]
-    X = np.empty((count, n))
-    X[0] = x0
-    filled = 1
-    P, G = Phi.copy(), gam.copy()  # x[j + filled] = P x[j] + G, with P = Phi^filled
-    # first step explicitly so that P, G describe `filled` steps
-    while filled < count:
-        take = min(filled, count - filled)
-        block = X[filled : filled + take]
-        np.matmul(X[:take], P.T, out=block)
-        block += G
-        filled += take
-        if filled < count:
-            G = P @ G + G
-            P = P @ P
-    return X
-
-
 def _open_loop(model: LinearModel, t: np.ndarray, impulse: bool) -> np.ndarray:
     n = model.order
     y = np.zeros(len(t))
@@ -478,7 +442,7 @@ def _open_loop(model: LinearModel, t: np.ndarray, impulse: bool) -> np.ndarray:
         x0 = scipy.linalg.expm(model.A * tau0) @ model.B[:, 0]
     else:
         x0 = _zoh(model.A, model.B, tau0)[1][:, 0] if tau0 > 0 else np.zeros(n)
-    X = _affine_orbit(Phi, gam, x0, len(t) - start)
+    X = affine_orbit(Phi, gam, x0, len(t) - start)
     y[start:] = X @ model.C[0] + (0.0 if impulse else model.D[0, 0])
     return y
 
@@ -512,7 +476,7 @@ def _closed_loop_free(
     """Delay-free loop, exact: y0 = y, e = r - y."""
     Acl, bin_ = _free_loop(m, r, d)
     Phi, Gam = _zoh(Acl, bin_[:, None], h)
-    X = _affine_orbit(Phi, Gam[:, 0], z0, count)
+    X = affine_orbit(Phi, Gam[:, 0], z0, count)
     return _free_outputs(m, X, r, d)
 
 
@@ -602,7 +566,7 @@ def _closed_loop_augmented(
     F, g, y_row, u_row, const = _delayed_map(m, h, ms, f, r, d)
     w0 = np.zeros(F.shape[0])
     w0[: len(z0)] = z0
-    W = _affine_orbit(F, g, w0, count)
+    W = affine_orbit(F, g, w0, count)
     return W @ y_row + const[0], W @ u_row + const[1]
 
 

@@ -202,29 +202,34 @@ def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndar
     return np.linalg.eigvals(comp)
 
 
-def _locus_roots(num: np.ndarray, den: np.ndarray, gains: np.ndarray, hard: Any = ()) -> np.ndarray:
+def _locus_roots(
+    num: np.ndarray, den: np.ndarray, gains: np.ndarray, breaks: Any = (), poles: np.ndarray | None = None
+) -> np.ndarray:
     """Continuous branches of den + K num = 0 for sorted gains K.
 
-    The roots at the first gain, and at the two grid gains from each of the
-    ``hard`` gains (break points, where roots coincide) upwards, are
-    eigenvalues of companion matrices; every other gain's roots are followed
-    from the gain before by the predictor-corrector in
-    :mod:`drivekit.locustrace`.
+    Followed gain by gain from the roots at the first gain (the open-loop
+    ``poles`` when it is 0 and they are given, else eigenvalues of the
+    companion matrix) by the predictor-corrector in
+    :mod:`drivekit.locustrace`, with the double roots at the ``breaks``
+    (:class:`BreakPoint`) set where they are.
     """
-    G = len(gains)
-    at = np.searchsorted(gains, np.asarray(hard, float)).tolist()
-    fixed = np.array(sorted({0, *(i for i in at if i < G), *(i + 1 for i in at if i + 1 < G)}), dtype=np.int64)
-    roots = np.ascontiguousarray(_roots_batch(num, den, gains[fixed]), complex)
+    if poles is not None and gains[0] == 0.0:
+        start = np.ascontiguousarray(poles, complex)
+    else:
+        start = np.ascontiguousarray(_roots_batch(num, den, gains[:1])[0], complex)
+    order = sorted(breaks, key=lambda b: b.gain)
     nump = np.concatenate([np.zeros(len(den) - len(num)), num])
-    return trace_branches(den, nump, gains, fixed, roots)
+    return trace_branches(
+        den, nump, gains, start, np.array([b.gain for b in order]), np.array([b.s for b in order], dtype=float)
+    )
 
 
-def _imaginary_crossings(num: np.ndarray, den: np.ndarray) -> tuple[list[float], list[float]]:
-    """Gains K > 0 and frequencies w >= 0 where den(jw) + K num(jw) = 0.
+def _crossing_polynomial(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    """Im(D(jw) conj N(jw)) / w as a polynomial in x = w**2 (highest power first).
 
-    With P(jw) = Pr(w) + j Pi(w) (even powers in Pr, odd in Pi), K is real
-    where Im(D(jw) conj N(jw)) = Di Nr - Dr Ni = 0; this is odd in w, so its
-    roots other than w = 0 are those of a polynomial in x = w**2.
+    With P(jw) = Pr(w) + j Pi(w) (even powers in Pr, odd in Pi), K = -D/N is
+    real where Di Nr - Dr Ni = 0; this is odd in w, so its roots other than
+    w = 0 are those of a polynomial in x = w**2.
     """
 
     def parts(c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -236,12 +241,26 @@ def _imaginary_crossings(num: np.ndarray, den: np.ndarray) -> tuple[list[float],
 
     dr, di = parts(den)
     nr, ni = parts(num)
-    q = _sub(
+    return _sub(
         np.convolve(di, nr) if len(di) and len(nr) else np.zeros(1), np.convolve(dr, ni) if len(ni) else np.zeros(1)
     )
+
+
+def _imaginary_crossings(
+    num: np.ndarray, den: np.ndarray, q: np.ndarray, q_roots: np.ndarray
+) -> tuple[list[float], list[float]]:
+    """Gains K > 0 and frequencies w >= 0 where den(jw) + K num(jw) = 0, from the crossing polynomial q and its roots.
+
+    Parameters
+    ----------
+    num, den : numpy.ndarray
+        N(s) and D(s), highest power first. [-]
+    q, q_roots : numpy.ndarray
+        :func:`_crossing_polynomial` and its roots. [-], [(rad/s)**2]
+    """
     qc, dq = q.tolist(), _der(q).tolist()
     freqs = [0.0]
-    for r in _roots(q).tolist():
+    for r in q_roots.tolist():
         if abs(r.imag) <= 1e-7 * max(1.0, abs(r)) and r.real > 0:
             # one Newton step on q in x polishes the eigenvalue root
             x, slope = r.real, _horner(dq, r.real)
@@ -270,17 +289,26 @@ def _horner(coeffs: list[float], x: Any) -> Any:
     return y
 
 
-def _break_points(num: np.ndarray, den: np.ndarray) -> list[BreakPoint]:
-    """Real roots of N D' - D N' = 0 with a real positive gain K = -D/N (on the locus)."""
-    nc, dc = num.tolist(), den.tolist()
+def _break_polynomial(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    """N D' - D N', zero where dK/ds = 0 on K = -D/N (highest power first)."""
+    return _sub(np.convolve(num, _der(den)), np.convolve(den, _der(num)))
+
+
+def _break_points(num: np.ndarray, den: np.ndarray, b: np.ndarray, b_roots: np.ndarray) -> list[BreakPoint]:
+    """Real roots of the break polynomial b (polished by a Newton step) with a real positive gain K = -D/N."""
+    nc, dc, bc, db = num.tolist(), den.tolist(), b.tolist(), _der(b).tolist()
     found = []
-    for r in _roots(_sub(np.convolve(num, _der(den)), np.convolve(den, _der(num)))).tolist():
+    for r in b_roots.tolist():
         if abs(r.imag) <= 1e-7 * max(1.0, abs(r)):
-            nv = _horner(nc, r.real)
+            x, slope = r.real, _horner(db, r.real)
+            fix = _horner(bc, x) / slope if slope != 0 else math.nan
+            if math.isfinite(fix) and abs(fix) < 1e-6 * max(1.0, abs(x)):
+                x -= fix
+            nv = _horner(nc, x)
             if nv != 0:
-                kk = -_horner(dc, r.real) / nv
+                kk = -_horner(dc, x) / nv
                 if kk > 0:
-                    found.append((r.real, kk))
+                    found.append((x, kk))
     return [BreakPoint(a, b) for a, b in sorted(found)]
 
 
@@ -326,8 +354,10 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
     n, m = len(den) - 1, (len(num) - 1 - int(lead[0]) if len(lead) else -1)
     if n < 1:
         raise ParameterError("`L`: has no poles, so there is no root locus")
-    cross_k, cross_w = _imaginary_crossings(num, den)
-    breaks = _break_points(num, den)
+    q, b = _crossing_polynomial(num, den), _break_polynomial(num, den)
+    q_roots, b_roots = _roots(q), _roots(b)
+    cross_k, cross_w = _imaginary_crossings(num, den, q, q_roots)
+    breaks = _break_points(num, den, b, b_roots)
     if gains is None:
         marks = [1.0, *cross_k, *(b.gain for b in breaks)]
         k = np.logspace(math.log10(min(marks)) - 3, math.log10(max(marks)) + 2, points)
@@ -339,7 +369,7 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
         if k.ndim != 1 or np.any(k < 0) or not np.all(np.isfinite(k)):
             raise ParameterError("`gains`: expected a 1-D array of finite gain factors >= 0")
         k = np.sort(k)
-    branches = _locus_roots(num, den, k, [b.gain for b in breaks])
+    branches = _locus_roots(num, den, k, breaks, p_ol)
     q = n - m
     centroid = (sum(p_ol.tolist()).real - sum(z_ol.tolist()).real) / q if q > 0 else math.nan
     angles = tuple((2 * i + 1) * 180.0 / q for i in range(q)) if q > 0 else ()

@@ -160,7 +160,8 @@ def to_si(value: Any, name: str, spec: ParamSpec) -> Any:
             raise ParameterError(f"`{name}`: got {_describe(given)}, expected {spec.expected()}") from None
     else:
         raise ParameterError(f"`{name}`: got {_describe(given)}, expected {spec.expected()}")
-    _check_range(magnitude, name, spec, given)
+    if not (type(magnitude) is float and math.isfinite(magnitude) and _in_range(magnitude, spec)):
+        _check_range(magnitude, name, spec, given)
     return magnitude
 
 
