@@ -354,10 +354,9 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
     n, m = len(den) - 1, (len(num) - 1 - int(lead[0]) if len(lead) else -1)
     if n < 1:
         raise ParameterError("`L`: has no poles, so there is no root locus")
-    q, b = _crossing_polynomial(num, den), _break_polynomial(num, den)
-    q_roots, b_roots = _roots(q), _roots(b)
-    cross_k, cross_w = _imaginary_crossings(num, den, q, q_roots)
-    breaks = _break_points(num, den, b, b_roots)
+    cross_poly, break_poly = _crossing_polynomial(num, den), _break_polynomial(num, den)
+    cross_k, cross_w = _imaginary_crossings(num, den, cross_poly, _roots(cross_poly))
+    breaks = _break_points(num, den, break_poly, _roots(break_poly))
     if gains is None:
         marks = [1.0, *cross_k, *(b.gain for b in breaks)]
         k = np.logspace(math.log10(min(marks)) - 3, math.log10(max(marks)) + 2, points)
