@@ -155,7 +155,8 @@ def test_every_branch_point_is_a_root_to_round_off_on_random_loops():
         den_used = np.real(np.poly(p))
         num_used = k_lead * np.atleast_1d(np.real(np.poly(z)))
         pad = np.concatenate([np.zeros(len(den_used) - len(num_used)), num_used])
-        loci = np.asarray(control.root_locus_map(control.tf(num_used, den_used), rl.gains).loci).reshape(len(rl.gains), -1)
+        loci = np.asarray(control.root_locus_map(control.tf(num_used, den_used), rl.gains).loci)
+        loci = loci.reshape(len(rl.gains), -1)
         for k, row, theirs in zip(rl.gains, rl.branches, loci, strict=True):
             c = den_used + k * pad
             if c[0] == 0.0:
