@@ -17,10 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from .linear import LinearModel
-from .loop import Loop, as_linear
-from .metrics import LoadMetrics, StepMetrics, load_metrics, step_metric_arrays, step_metrics
-from .refine import (
+from .frequency import (
     GAIN_CROSSOVER,
     PHASE_CROSSOVER,
     S_PEAK,
@@ -31,6 +28,9 @@ from .refine import (
     margin_samples,
     target,
 )
+from .linear import LinearModel
+from .loop import Loop, as_linear
+from .metrics import LoadMetrics, StepMetrics, load_metrics, step_metric_arrays, step_metrics
 from .responses import zpk
 from .units import ParameterError
 

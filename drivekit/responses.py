@@ -43,6 +43,7 @@ from typing import Any
 import numpy as np
 import scipy.linalg
 
+from .frequency import bode_samples
 from .linear import LinearModel
 from .loop import Loop, LoopMatrices, as_linear, zpk
 from .recursion import affine_orbit, pade_loop_matrix
@@ -233,9 +234,12 @@ def continuous_phase(z: np.ndarray, p: np.ndarray, k: float, delay: float, omega
     omega : numpy.ndarray
         Angular frequencies (> 0). [rad/s]
     """
-    s = 1j * np.asarray(omega, dtype=float)[:, None]
-    phase = np.sum(np.angle(s - z), axis=1) - np.sum(np.angle(s - p), axis=1)
-    return phase - (math.pi if k < 0 else 0.0) - omega * delay
+    w = np.asarray(omega, dtype=float)
+    roots = np.concatenate([np.asarray(z, complex), np.asarray(p, complex)])
+    sign = np.concatenate([np.ones(len(z)), -np.ones(len(p))])
+    # angle of jw - r is atan2(w - Im r, -Re r) for each factor
+    phase = np.arctan2(w[:, None] - roots.imag, -roots.real) @ sign
+    return phase - (math.pi if k < 0 else 0.0) - w * delay
 
 
 # ---------------------------------------------------------------------------------------
@@ -252,25 +256,8 @@ def frequency_grid(z: np.ndarray, p: np.ndarray, delay: float = 0.0, points: int
     points : int
         Number of points. [-]
     """
-    roots = np.concatenate([np.asarray(z, complex), np.asarray(p, complex)])
-    mags = np.abs(roots)
-    corners = list(mags[mags > 1e-12 * max(1.0, float(np.max(mags, initial=0.0)))])
-    if delay > 0:
-        corners.append(1.0 / delay)
-    if not corners:
-        corners = [1.0]
-    lo = math.floor(math.log10(min(corners))) - 1
-    hi = math.ceil(math.log10(max(corners))) + 1
-    extra = []
-    for r in roots:
-        wn = abs(r)
-        if wn > 0 and abs(r.imag) > 0 and -r.real / wn < 0.3:
-            zeta = max(-r.real / wn, 1e-4)
-            extra.append(wn * (1.0 + zeta * np.linspace(-3.0, 3.0, 9)))
-    extra_pts = np.concatenate(extra) if extra else np.zeros(0)
-    extra_pts = extra_pts[extra_pts > 0][: max(0, points // 4)]
-    base = np.logspace(lo, hi, points - len(extra_pts))
-    return np.sort(np.concatenate([base, extra_pts]))
+    zc, pc = np.ascontiguousarray(z, complex), np.ascontiguousarray(p, complex)
+    return bode_samples(zc, pc, 1.0, float(delay), int(points))[0]
 
 
 def frequency_response(sys: Any, omega: Any = None, points: int = 400) -> FrequencyResponse:
@@ -295,12 +282,13 @@ def frequency_response(sys: Any, omega: Any = None, points: int = 400) -> Freque
     if omega is None:
         if points < 10:
             raise ParameterError(f"`points`: got {points!r}, expected at least 10")
-        w = frequency_grid(z, p, model.delay, points)
+        zc, pc = np.ascontiguousarray(z, complex), np.ascontiguousarray(p, complex)
+        w, g = bode_samples(zc, pc, float(k), model.delay, int(points))
     else:
         w = np.asarray(omega, dtype=float)
         if w.ndim != 1 or np.any(w <= 0) or not np.all(np.isfinite(w)):
             raise ParameterError("`omega`: expected a 1-D array of finite frequencies > 0 rad/s")
-    g = zpk_response(z, p, k, model.delay, w)
+        g = zpk_response(z, p, k, model.delay, w)
     mag = np.abs(g)
     with np.errstate(divide="ignore"):
         mag_db = 20.0 * np.log10(mag)

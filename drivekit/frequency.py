@@ -1,8 +1,9 @@
-"""The open loop's frequency response on the margin grid, and points on it refined to round-off, compiled.
+"""Compiled evaluations of a frequency response: the Bode grid, the margin grid, and points refined on them.
 
-The open loop is L(jw) = k prod(jw - z) / prod(jw - p) e^{-jw delay}.
-:func:`margin_samples` evaluates it on the dense grid the margins search;
-the other functions find, between two frequencies that bracket it, a gain
+A model or open loop is L(jw) = k prod(jw - z) / prod(jw - p) e^{-jw delay}.
+:func:`bode_samples` evaluates it on the grid of the Bode and Nyquist
+plots, :func:`margin_samples` on the dense grid the margins search; the
+other functions find, between two frequencies that bracket it, a gain
 crossover (|L| = 1), a phase crossover (Im L = 0), a peak of |S| or |T|
 (their slope in w is zero) or the frequency where |T| falls to a level,
 by Brent's method on exact evaluations of L.
@@ -25,6 +26,7 @@ __all__ = [
     "S_PEAK",
     "T_LEVEL",
     "T_PEAK",
+    "bode_samples",
     "crossing",
     "loop_value",
     "margin_samples",
@@ -284,3 +286,72 @@ def margin_samples(
             used += 1
             previous = x
     return out_w[:used], out_l[:used]
+
+
+@_jit
+def bode_samples(z: np.ndarray, p: np.ndarray, k: float, delay: float, points: int) -> tuple[np.ndarray, np.ndarray]:
+    """Frequencies and L(jw) of the automatic Bode grid.
+
+    A logarithmic grid a decade beyond the slowest and the fastest corner
+    (pole, zero or 1/delay), rounded out to whole decades, with nine extra
+    points across each lightly damped pair (damping below 0.3), wn (1 +
+    zeta x) for x from -3 to 3, so that its peak is drawn; at most a
+    quarter of the points are extra.
+
+    Parameters
+    ----------
+    z, p : numpy.ndarray
+        Zeros and poles, complex. [1/s]
+    k : float
+        Gain of the factored form.
+    delay : float
+        Dead time. [s]
+    points : int
+        Number of points, >= 10. [-]
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        Increasing frequencies [rad/s] and L there (complex).
+    """
+    biggest = 0.0
+    for r in z:
+        biggest = max(biggest, abs(r))
+    for r in p:
+        biggest = max(biggest, abs(r))
+    small = 1e-12 * max(1.0, biggest)
+    low, high = np.inf, -np.inf
+    roots = np.concatenate((z, p))
+    for r in roots:
+        if abs(r) > small:
+            low, high = min(low, abs(r)), max(high, abs(r))
+    if delay > 0:
+        low, high = min(low, 1.0 / delay), max(high, 1.0 / delay)
+    if low > high:
+        low = high = 1.0
+    lo = math.floor(math.log10(low)) - 1.0
+    hi = math.ceil(math.log10(high)) + 1.0
+    room = points // 4
+    extra = np.empty(9 * len(roots))
+    used = 0
+    for r in roots:
+        wn = abs(r)
+        if wn > 0 and abs(r.imag) > 0 and -r.real / wn < 0.3:
+            zeta = max(-r.real / wn, 1e-4)
+            for i in range(9):
+                x = wn * (1.0 + zeta * (-3.0 + 0.75 * i))
+                if x > 0 and used < room:
+                    extra[used] = x
+                    used += 1
+    count = points - used
+    w = np.empty(points)
+    step = (hi - lo) / (count - 1)
+    for i in range(count):
+        w[i] = 10.0 ** (i * step + lo)
+    w[count - 1] = 10.0**hi
+    w[count:] = extra[:used]
+    w.sort()
+    lw = np.empty(points, np.complex128)
+    for i in range(points):
+        lw[i] = _response_at(z, p, k, delay, w[i])
+    return w, lw
