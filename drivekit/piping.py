@@ -7,6 +7,7 @@ import math
 from collections.abc import Sequence
 from typing import Any
 
+import numba
 import numpy as np
 
 from .constants import STANDARD_GRAVITY
@@ -65,18 +66,40 @@ def colebrook(reynolds: Any, relative_roughness: Any) -> Any:
     >>> round(float(colebrook(1e5, 1e-4)), 4)
     0.0185
     """
-    re = np.asarray(reynolds, dtype=float)
-    a = np.asarray(relative_roughness, dtype=float) / 3.7
+    f = _colebrook(np.asarray(reynolds, dtype=float), np.asarray(relative_roughness, dtype=float))
+    return f if np.ndim(f) else float(f)
+
+
+@numba.njit(cache=True, nogil=True)
+def _colebrook_one(re: float, rel: float) -> float:
+    a = rel / 3.7
     b = 2.51 / re
     # Haaland's explicit start
-    x = -1.8 * np.log10((a / 1.0) ** 1.11 + 6.9 / re)
+    x = -1.8 * math.log10(a**1.11 + 6.9 / re)
     for _ in range(4):
         arg = a + b * x
-        fx = x + 2.0 * np.log10(arg)
+        fx = x + 2.0 * math.log10(arg)
         dfx = 1.0 + 2.0 * b / (arg * _LN10)
         x = x - fx / dfx
-    f = 1.0 / (x * x)
-    return f if f.ndim else float(f)
+    return 1.0 / (x * x)
+
+
+@numba.vectorize(["float64(float64, float64)"], cache=True)
+def _colebrook(re: float, rel: float) -> float:
+    return _colebrook_one(re, rel)
+
+
+@numba.vectorize(["float64(float64, float64)"], cache=True)
+def _friction_factor(re: float, rel: float) -> float:
+    re = max(re, 1e-12)
+    if re >= TURBULENT_LIMIT:
+        return _colebrook_one(re, rel)
+    if re < LAMINAR_LIMIT:
+        return 64.0 / re
+    edge = 64.0 / LAMINAR_LIMIT
+    return edge + (re - LAMINAR_LIMIT) / (TURBULENT_LIMIT - LAMINAR_LIMIT) * (
+        _colebrook_one(TURBULENT_LIMIT, rel) - edge
+    )
 
 
 def friction_factor(reynolds: Any, relative_roughness: Any) -> Any:
@@ -109,18 +132,8 @@ def friction_factor(reynolds: Any, relative_roughness: Any) -> Any:
     >>> friction_factor(1000.0, 0.0)
     0.064
     """
-    re = np.maximum(np.asarray(reynolds, dtype=float), 1e-12)
-    re_turb = np.maximum(re, TURBULENT_LIMIT)
-    turbulent = colebrook(re_turb, relative_roughness)
-    if np.all(re >= TURBULENT_LIMIT):
-        return turbulent
-    laminar = 64.0 / re
-    f_lam_edge = 64.0 / LAMINAR_LIMIT
-    f_turb_edge = colebrook(TURBULENT_LIMIT, relative_roughness)
-    s = (re - LAMINAR_LIMIT) / (TURBULENT_LIMIT - LAMINAR_LIMIT)
-    blend = f_lam_edge + s * (f_turb_edge - f_lam_edge)
-    f = np.where(re < LAMINAR_LIMIT, laminar, np.where(re < TURBULENT_LIMIT, blend, turbulent))
-    return f if f.ndim else float(f)
+    f = _friction_factor(np.asarray(reynolds, dtype=float), np.asarray(relative_roughness, dtype=float))
+    return f if np.ndim(f) else float(f)
 
 
 @dataclasses.dataclass(frozen=True, kw_only=True)
