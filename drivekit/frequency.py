@@ -30,6 +30,7 @@ __all__ = [
     "crossing",
     "loop_value",
     "margin_samples",
+    "responses_at",
     "target",
 ]
 
@@ -70,7 +71,7 @@ def _value_and_log_slope(z: np.ndarray, p: np.ndarray, k: float, delay: float, w
 
 @_jit
 def loop_value(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: float) -> complex:
-    """L(jw).
+    """L(jw) at one frequency: the zeros' factors, one division by the poles' product, then the dead time.
 
     Parameters
     ----------
@@ -87,10 +88,13 @@ def loop_value(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: float) -
     v = k + 0j
     for a in z:
         v *= s - a
-    for b in p:
-        v /= s - b
+    if len(p):
+        den = s - p[0]
+        for b in p[1:]:
+            den *= s - b
+        v /= den
     if delay:
-        v *= np.exp(-s * delay)
+        v *= np.exp(-1j * (w * delay))
     return v
 
 
@@ -183,20 +187,61 @@ def crossing(
 
 
 @_jit
-def _response_at(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: float) -> complex:
-    """L(jw), the factors multiplied in the order of :func:`drivekit.responses.zpk_response`."""
-    s = 1j * w
-    v = k + 0j
-    for a in z:
-        v *= s - a
-    if len(p):
-        den = s - p[0]
-        for b in p[1:]:
-            den *= s - b
-        v /= den
-    if delay:
-        v *= np.exp(-1j * (w * delay))
-    return v
+def responses_at(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: np.ndarray) -> np.ndarray:
+    """L(jw) at each frequency of w.
+
+    Parameters
+    ----------
+    z, p : numpy.ndarray
+        Zeros and poles, complex. [1/s]
+    k : float
+        Gain of the factored form.
+    delay : float
+        Dead time. [s]
+    w : numpy.ndarray
+        Angular frequencies, one-dimensional. [rad/s]
+
+    Returns
+    -------
+    numpy.ndarray
+        Complex, one value per frequency.
+    """
+    out = np.empty(len(w), np.complex128)
+    for i in range(len(w)):
+        out[i] = loop_value(z, p, k, delay, w[i])
+    return out
+
+
+@_jit
+def _corners(z: np.ndarray, p: np.ndarray, delay: float) -> tuple[float, float]:
+    """Slowest and fastest corner: pole or zero magnitude (those at the origin left out) or 1/delay. [rad/s]"""
+    biggest = 0.0
+    for r in z:
+        biggest = max(biggest, abs(r))
+    for r in p:
+        biggest = max(biggest, abs(r))
+    small = 1e-12 * max(1.0, biggest)
+    low, high = np.inf, -np.inf
+    for r in z:
+        if abs(r) > small:
+            low, high = min(low, abs(r)), max(high, abs(r))
+    for r in p:
+        if abs(r) > small:
+            low, high = min(low, abs(r)), max(high, abs(r))
+    if delay > 0:
+        low, high = min(low, 1.0 / delay), max(high, 1.0 / delay)
+    if low > high:
+        return 1.0, 1.0
+    return low, high
+
+
+@_jit
+def _log_grid(lo: float, hi: float, count: int, out: np.ndarray) -> None:
+    """10**x for count x evenly from lo to hi into out[:count] (as numpy.logspace)."""
+    step = (hi - lo) / (count - 1)
+    for i in range(count):
+        out[i] = 10.0 ** (i * step + lo)
+    out[count - 1] = 10.0**hi
 
 
 @_jit
@@ -228,35 +273,16 @@ def margin_samples(
     tuple of numpy.ndarray
         Increasing frequencies [rad/s] and L there (complex).
     """
-    biggest = 0.0
-    for r in z:
-        biggest = max(biggest, abs(r))
-    for r in p:
-        biggest = max(biggest, abs(r))
-    small = 1e-12 * max(1.0, biggest)
-    low, high = np.inf, -np.inf
-    for r in z:
-        if abs(r) > small:
-            low, high = min(low, abs(r)), max(high, abs(r))
-    for r in p:
-        if abs(r) > small:
-            low, high = min(low, abs(r)), max(high, abs(r))
-    if delay > 0:
-        low, high = min(low, 1.0 / delay), max(high, 1.0 / delay)
-    if low > high:
-        low = high = 1.0
+    low, high = _corners(z, p, delay)
     lo = math.log10(low) - 4.0
     hi = math.log10(high) + 3.0
     count = int((hi - lo) * per_decade) + 1
     w = np.empty(count)
-    step = (hi - lo) / (count - 1)
-    for i in range(count):
-        w[i] = 10.0 ** (i * step + lo)
-    w[count - 1] = 10.0**hi
+    _log_grid(lo, hi, count, w)
     lw = np.empty(count, np.complex128)
     last = -1
     for i in range(count):
-        lw[i] = _response_at(z, p, k, delay, w[i])
+        lw[i] = loop_value(z, p, k, delay, w[i])
         if abs(lw[i]) >= 0.01:
             last = i
     if delay <= 0 or last < 0:
@@ -278,7 +304,7 @@ def margin_samples(
             i += 1
         else:
             x = w_cut if j == extra - 1 else j * lin_step + spacing
-            v = _response_at(z, p, k, delay, x)
+            v = loop_value(z, p, k, delay, x)
             j += 1
         if x != previous:
             out_w[used] = x
@@ -314,23 +340,10 @@ def bode_samples(z: np.ndarray, p: np.ndarray, k: float, delay: float, points: i
     tuple of numpy.ndarray
         Increasing frequencies [rad/s] and L there (complex).
     """
-    biggest = 0.0
-    for r in z:
-        biggest = max(biggest, abs(r))
-    for r in p:
-        biggest = max(biggest, abs(r))
-    small = 1e-12 * max(1.0, biggest)
-    low, high = np.inf, -np.inf
-    roots = np.concatenate((z, p))
-    for r in roots:
-        if abs(r) > small:
-            low, high = min(low, abs(r)), max(high, abs(r))
-    if delay > 0:
-        low, high = min(low, 1.0 / delay), max(high, 1.0 / delay)
-    if low > high:
-        low = high = 1.0
+    low, high = _corners(z, p, delay)
     lo = math.floor(math.log10(low)) - 1.0
     hi = math.ceil(math.log10(high)) + 1.0
+    roots = np.concatenate((z, p))
     room = points // 4
     extra = np.empty(9 * len(roots))
     used = 0
@@ -345,13 +358,7 @@ def bode_samples(z: np.ndarray, p: np.ndarray, k: float, delay: float, points: i
                     used += 1
     count = points - used
     w = np.empty(points)
-    step = (hi - lo) / (count - 1)
-    for i in range(count):
-        w[i] = 10.0 ** (i * step + lo)
-    w[count - 1] = 10.0**hi
+    _log_grid(lo, hi, count, w)
     w[count:] = extra[:used]
     w.sort()
-    lw = np.empty(points, np.complex128)
-    for i in range(points):
-        lw[i] = _response_at(z, p, k, delay, w[i])
-    return w, lw
+    return w, responses_at(z, p, k, delay, w)

@@ -26,6 +26,7 @@ from .frequency import (
     crossing,
     loop_value,
     margin_samples,
+    responses_at,
     target,
 )
 from .linear import LinearModel
@@ -271,13 +272,6 @@ def _sign_changes(x: np.ndarray) -> np.ndarray:
     return np.nonzero((s[:-1] * s[1:] < 0) | (s[:-1] == 0))[0]
 
 
-def _small_response(z: np.ndarray, p: np.ndarray, k: float, delay: float, w: np.ndarray) -> np.ndarray:
-    """L(jw) at a few frequencies (same formula as zpk_response, fewer checks). [-]"""
-    s = 1j * w[:, None]
-    v = k * (s - z).prod(axis=1) / (s - p).prod(axis=1)
-    return v * np.exp(-1j * w * delay) if delay else v
-
-
 def _peaks(ev: _Evaluated, s_abs: np.ndarray, t_abs: np.ndarray) -> tuple[float, float]:
     """Maxima of |S| and |T| near their grid maxima, where their slopes in w change sign.
 
@@ -309,7 +303,7 @@ def _zoom_peak(ev: _Evaluated, kind: int, i: int) -> float:
     best = -math.inf
     for _ in range(5):
         x = lo + (hi - lo) * _FRAC
-        v = _small_response(ev.z, ev.p, ev.k, ev.model.delay, np.exp(x))
+        v = responses_at(*ev.factors, np.exp(x))
         f = np.abs(1.0 / (1.0 + v)) if kind == 0 else np.abs(v / (1.0 + v))
         j = int(np.argmax(f))
         best = max(best, float(f[j]))

@@ -43,7 +43,7 @@ from typing import Any
 import numpy as np
 import scipy.linalg
 
-from .frequency import bode_samples
+from .frequency import bode_samples, responses_at
 from .linear import LinearModel
 from .loop import Loop, LoopMatrices, as_linear, zpk
 from .recursion import affine_orbit, pade_loop_matrix
@@ -205,19 +205,9 @@ def zpk_response(z: np.ndarray, p: np.ndarray, k: float, delay: float, omega: np
     numpy.ndarray of complex
     """
     w = np.asarray(omega, dtype=float)
-    s = 1j * w
-    out = np.full(w.shape, complex(k))
-    for a in np.asarray(z, complex).tolist():
-        out *= s - a
-    if len(p):
-        poles = np.asarray(p, complex).tolist()
-        den = s - poles[0]
-        for b in poles[1:]:
-            den *= s - b
-        out /= den
-    if delay:
-        out *= np.exp(-1j * (w * delay))
-    return out
+    flat = np.ascontiguousarray(w.ravel())
+    zc, pc = np.ascontiguousarray(z, complex), np.ascontiguousarray(p, complex)
+    return responses_at(zc, pc, float(k), float(delay), flat).reshape(w.shape)
 
 
 def continuous_phase(z: np.ndarray, p: np.ndarray, k: float, delay: float, omega: np.ndarray) -> np.ndarray:
