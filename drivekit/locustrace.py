@@ -1,16 +1,18 @@
 """Branches of a root locus followed gain by gain: a compiled predictor-corrector.
 
 The closed-loop poles are the roots of P(s; K) = D(s) + K N(s). From the
-roots at one gain, the roots at the next gain are predicted by a
-second-order Taylor step (in ln K, or in K from K = 0) and corrected by
-Newton's method on P. A step is taken only when every root converges to
-round-off within its own neighbourhood (the correction moves it less than a
-quarter of the distance to the nearest other prediction) and the roots'
-sum agrees with Vieta's formula, so two branches can neither swap nor
-merge; otherwise the step is split. Where splitting does not settle it
-(just beyond a break point, where two roots have met and Newton's method
-slows down) the roots at that gain are computed as eigenvalues of the
-companion matrix and paired with the predictions.
+roots at one gain, the roots at the next gain are predicted, by the cubic
+through the last two points and their slopes in ln K where the branch has
+that history, else by a second-order Taylor step (in ln K, or in K from
+K = 0), and corrected by Newton's method on P. A step is taken only when
+every root converges to round-off within its own neighbourhood (the
+correction moves it less than a quarter of the distance to the nearest
+other prediction) and the roots' sum agrees with Vieta's formula, so two
+branches can neither swap nor merge; otherwise the step is split. At a
+break point the two branches that meet are set on the double root, and
+leave it along the directions of :func:`_departure`. Where splitting does
+not settle a step, the roots at that gain are computed as eigenvalues of
+the companion matrix, paired with the predictions and polished.
 
 Path following of this kind: Allgower & Georg, *Introduction to Numerical
 Continuation Methods*, SIAM Classics in Applied Mathematics 45, 2003,

@@ -337,10 +337,14 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
     Im(D(jw) conj N(jw)) = 0 (Ogata, *Modern Control Engineering*, 5th ed.,
     §6-2). The automatic range runs from 1e-3 of the smallest landmark gain
     (present gain, crossings, break points) to 100 times the largest.
-    Every branch point is a root of D(s) + K N(s) to round-off: eigenvalues
-    of the companion matrix at every 12th gain and beside the break points,
-    Newton-polished interpolation in between, checked by the step size and
-    the root sum (Vieta), with eigenvalues again where a check fails.
+    Every branch point is a root of D(s) + K N(s) to round-off: each branch
+    is followed from the open-loop poles gain by gain, predicted from its
+    last two points and slopes (or a second-order Taylor step) and corrected
+    by Newton's method, a step taken only when every root converges near its
+    own prediction and the roots' sum agrees with Vieta's formula, else
+    split; the double root is set at each break point and left along
+    +-90 deg; eigenvalues of the companion matrix decide where splitting does
+    not (:mod:`drivekit.locustrace`).
 
     Examples
     --------
