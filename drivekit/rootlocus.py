@@ -16,6 +16,7 @@ import numpy as np
 
 from .locustrace import trace_branches
 from .loop import Loop, as_linear
+from .polyroots import polynomial_roots
 from .responses import pade_coefficients, zpk
 from .units import ParameterError
 
@@ -145,23 +146,6 @@ def _sub(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     out[n - len(a) :] = a
     out[n - len(b) :] -= b
     return out
-
-
-def _roots(c: np.ndarray) -> np.ndarray:
-    """Roots of a real polynomial (highest power first) as eigenvalues of its companion matrix, like numpy.roots."""
-    nz = np.flatnonzero(c)
-    if not len(nz):
-        return np.zeros(0, complex)
-    zero = len(c) - 1 - nz[-1]
-    c = c[nz[0] : nz[-1] + 1]
-    n = len(c) - 1
-    if n < 1:
-        return np.zeros(zero, complex)
-    comp = np.zeros((n, n))
-    comp[0] = -c[1:] / c[0]
-    comp.flat[n :: n + 1] = 1.0
-    r = np.linalg.eigvals(comp).astype(complex)
-    return np.concatenate([r, np.zeros(zero, complex)]) if zero else r
 
 
 def _rational(L: Any, pade_order: int) -> tuple[np.ndarray, np.ndarray, int, np.ndarray, np.ndarray]:
@@ -359,8 +343,8 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
     if n < 1:
         raise ParameterError("`L`: has no poles, so there is no root locus")
     cross_poly, break_poly = _crossing_polynomial(num, den), _break_polynomial(num, den)
-    cross_k, cross_w = _imaginary_crossings(num, den, cross_poly, _roots(cross_poly))
-    breaks = _break_points(num, den, break_poly, _roots(break_poly))
+    cross_k, cross_w = _imaginary_crossings(num, den, cross_poly, polynomial_roots(cross_poly))
+    breaks = _break_points(num, den, break_poly, polynomial_roots(break_poly))
     if gains is None:
         marks = [1.0, *cross_k, *(b.gain for b in breaks)]
         k = np.logspace(math.log10(min(marks)) - 3, math.log10(max(marks)) + 2, points)
