@@ -19,7 +19,7 @@ import math
 import numba
 import numpy as np
 
-__all__ = ["polynomial_roots"]
+__all__ = ["polynomial_from_roots", "polynomial_roots"]
 
 _MAX_SWEEPS = 200
 _EPS = float(np.finfo(float).eps)
@@ -99,3 +99,28 @@ def polynomial_roots(c: np.ndarray) -> np.ndarray:
     if not settled or not np.all(np.isfinite(roots)):
         roots = np.roots(c).astype(complex)
     return np.concatenate([roots, np.zeros(zero, complex)]) if zero else roots
+
+
+def polynomial_from_roots(roots: np.ndarray) -> np.ndarray:
+    """Real coefficients (highest power first, leading 1) of the polynomial with these roots.
+
+    Parameters
+    ----------
+    roots : numpy.ndarray
+        Roots, complex ones in conjugate pairs. [1/s]
+
+    Returns
+    -------
+    numpy.ndarray
+        ``len(roots) + 1`` real coefficients (products formed in plain
+        Python arithmetic, which is fastest for the few roots of a loop).
+
+    Examples
+    --------
+    >>> polynomial_from_roots(np.array([-1.0, -2.0])).tolist()
+    [1.0, 3.0, 2.0]
+    """
+    c = [1.0 + 0j]
+    for r in np.asarray(roots, complex).tolist():
+        c = [a - r * b for a, b in zip([*c, 0j], [0j, *c], strict=True)]
+    return np.array(c).real

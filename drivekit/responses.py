@@ -46,7 +46,8 @@ import scipy.linalg
 from .frequency import bode_samples, responses_at
 from .linear import LinearModel
 from .loop import Loop, LoopMatrices, as_linear, zpk
-from .recursion import affine_orbit, pade_loop_matrix
+from .polyroots import polynomial_from_roots, polynomial_roots
+from .recursion import affine_orbit
 from .units import ParameterError
 
 __all__ = [
@@ -355,12 +356,17 @@ def _outer(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return a[:, None] * b[None, :]
 
 
-def _pade_loop_poles(m: LoopMatrices, order: int = 2) -> np.ndarray:
-    """Poles of the loop with the dead time replaced by a Pade approximation (for the span only)."""
-    num, den = pade_coefficients(m.delay, order)
-    return np.linalg.eigvals(
-        pade_loop_matrix(m.A, np.ascontiguousarray(m.B[:, 0]), np.ascontiguousarray(m.C[0]), float(m.D[0, 0]), num, den)
-    )
+def _pade_loop_poles(loop: Loop, order: int = 2) -> np.ndarray:
+    """Poles of the loop with the dead time replaced by a Pade approximation (for the span only).
+
+    Roots of D Dp + N Np, with L = N/D the open loop and Np/Dp the Pade
+    approximation of its dead time.
+    """
+    z, p, k = zpk(loop.open_loop)
+    num, den = pade_coefficients(loop.delay, order)
+    char = np.convolve(polynomial_from_roots(p), den)
+    char[len(char) - len(z) - order - 1 :] += np.convolve(k * polynomial_from_roots(z), num)
+    return polynomial_roots(char)
 
 
 def time_span(sys: Any) -> float:
@@ -373,7 +379,7 @@ def time_span(sys: Any) -> float:
     """
     if isinstance(sys, Loop):
         if sys.delay:
-            return _decay_span(_pade_loop_poles(sys.matrices), sys.delay)
+            return _decay_span(_pade_loop_poles(sys), sys.delay)
         return _decay_span(np.linalg.eigvals(sys.closed_loop_matrix()), 0.0)
     model = as_linear(sys)
     return _decay_span(model.poles, model.delay)

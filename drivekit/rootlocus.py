@@ -16,7 +16,7 @@ import numpy as np
 
 from .locustrace import trace_branches
 from .loop import Loop, as_linear
-from .polyroots import polynomial_roots
+from .polyroots import polynomial_from_roots, polynomial_roots
 from .responses import pade_coefficients, zpk
 from .units import ParameterError
 
@@ -125,14 +125,6 @@ class RootLocus:
         return rows
 
 
-def _poly(roots: np.ndarray) -> list[complex]:
-    """Monic polynomial coefficients (highest first) from its roots, in plain Python arithmetic."""
-    c = [1.0 + 0j]
-    for r in roots.tolist():
-        c = [a - r * b for a, b in zip([*c, 0j], [0j, *c], strict=True)]
-    return c
-
-
 def _der(c: np.ndarray) -> np.ndarray:
     """Coefficients of the derivative (highest power first)."""
     n = len(c) - 1
@@ -159,8 +151,8 @@ def _rational(L: Any, pade_order: int) -> tuple[np.ndarray, np.ndarray, int, np.
         p = np.concatenate([p, pp / model.delay])
         k = k * (-1.0) ** pade_order
         used = pade_order
-    num = k * np.array(_poly(z)).real
-    den = np.array(_poly(p)).real
+    num = k * polynomial_from_roots(z)
+    den = polynomial_from_roots(p)
     return num, den, used, z, p
 
 
