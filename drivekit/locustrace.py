@@ -34,6 +34,8 @@ _MAX_DEPTH = 6  # nested splits of one interval
 _BASIN = 0.25  # a correction may move a root at most this share of the distance to its nearest neighbour
 _TOL = 1e-13  # Newton converged: error left below this share of the size of the roots
 _REACH = 3.0  # the history curve predicts up to this many of its own lengths (in ln K) from its start
+_LEAVING = 1e-6  # roots that met at a break gain leave it by the square-root law up to this share of that gain
+_SAME_GAIN = 1e-9  # break gains this close (relative) are one: the pairs meet at once
 
 _jit = numba.njit(cache=True, nogil=True)
 
@@ -338,20 +340,22 @@ def _split(k0: float, k1: float) -> float:
 
 
 @_jit
-def _departure(num: np.ndarray, c: np.ndarray, lead: float, sb: float, kb: float, k1: float) -> complex:
-    """Offset of the two roots leaving the double root sb at gain kb, at gain k1.
+def _departure(den: np.ndarray, num: np.ndarray, sb: float, kb: float, k1: float, work: np.ndarray) -> complex:
+    """Offset at gain k1 of the two roots leaving the double root sb of the break gain kb.
 
     From P(sb + d, kb + h) = P_ss d**2 / 2 + N h + ... = 0 (P and P_s vanish
     at a break point): d = sqrt(-2 N(sb) h / P_ss(sb)), along the real axis or
     across it (Ogata, *Modern Control Engineering*, 5th ed., §6-2: branches
-    leave a break point at +-90 deg to each other). ``c`` holds D + kb N
-    divided by ``lead``.
+    leave a break point at +-90 deg to each other). ``work`` is scratch
+    space for the coefficients at kb.
     """
+    if not _coefficients(den, num, kb, work):
+        return 0j
     nv, _ = _horner2(num, sb + 0j)
-    _, half = _horner3(c, sb + 0j)  # P_ss / 2 / lead
+    _, half = _horner3(work, sb + 0j)  # P_ss / 2 divided by the leading coefficient
     if half == 0:
         return 0j
-    return np.sqrt(-nv * (k1 - kb) / (half * lead) + 0j)
+    return np.sqrt(-nv * (k1 - kb) / (half * (den[0] + kb * num[0])) + 0j)
 
 
 @_jit
@@ -407,7 +411,14 @@ def trace_branches(
     out[0] = z
     has_m = False
     has_prev = False
-    pair_a, pair_b = -1, -1  # the two roots at the break point just reached
+    # pairs of roots that met at a break point (spot, gain) and are still leaving it; those meeting now
+    most = n // 2 + 1
+    pairs = np.empty((most, 2), np.int64)
+    pair_spot = np.empty(most)
+    pair_gain = np.empty(most)
+    npairs = 0
+    meeting = np.empty((most, 2), np.int64)
+    cb = np.empty(n + 1)
     nb = 0
     while nb < len(breaks) and breaks[nb] <= k:
         nb += 1
@@ -417,11 +428,14 @@ def trace_branches(
             out[g] = np.nan
             continue
         while k < target:
-            # the next stop: a break point on the way, or the target
-            stop, spot = target, np.nan
+            # the next stop: the break points on the way (all of those at one gain, to rounding, together),
+            # or the target
+            stop, first, last = target, nb, nb
             if nb < len(breaks) and breaks[nb] <= target:
-                stop, spot = breaks[nb], spots[nb]
-                nb += 1
+                stop = breaks[nb]
+                while last < len(breaks) and breaks[last] <= stop * (1.0 + _SAME_GAIN):
+                    last += 1
+                nb = last
             depth = 0
             stack[0] = stop
             tries = 0
@@ -434,25 +448,35 @@ def trace_branches(
                 for i in range(n):  # a prediction that failed stays where it was
                     if not _abs2(guess[i]) < np.inf:
                         guess[i] = z[i]
-                if pair_a >= 0:  # leaving a double root
-                    d = _departure(num, c0, lead0, z[pair_a].real, k, tgt)
-                    guess[pair_a] = z[pair_a] + d
-                    guess[pair_b] = z[pair_b] - d
+                for q in range(npairs):  # leaving a double root: the square-root law, each on its own side
+                    a, b = pairs[q, 0], pairs[q, 1]
+                    d = _departure(den, num, pair_spot[q], pair_gain[q], tgt, cb)
+                    if _abs2(z[a] - pair_spot[q] - d) > _abs2(z[a] - pair_spot[q] + d):
+                        d = -d
+                    guess[a] = pair_spot[q] + d
+                    guess[b] = pair_spot[q] - d
                 _coefficients(den, num, tgt, c1)
-                arrive = depth == 0 and not np.isnan(spot) and n >= 2
+                meet = 0
                 mask = free
-                a = b = -1
-                if arrive:  # the two roots predicted nearest the break point meet there
-                    a = b = -1
-                    for i in range(n):
-                        dist = _abs2(guess[i] - spot)
-                        if a < 0 or dist < _abs2(guess[a] - spot):
-                            a, b = i, a
-                        elif b < 0 or dist < _abs2(guess[b] - spot):
-                            b = i
+                if depth == 0 and last > first and n >= 2:
+                    # at each break point the two free roots predicted nearest meet
                     held[:] = False
-                    held[a] = held[b] = True
-                    guess[a] = guess[b] = spot
+                    for j in range(first, last):
+                        a = b = -1
+                        for i in range(n):
+                            if held[i]:
+                                continue
+                            dist = _abs2(guess[i] - spots[j])
+                            if a < 0 or dist < _abs2(guess[a] - spots[j]):
+                                a, b = i, a
+                            elif b < 0 or dist < _abs2(guess[b] - spots[j]):
+                                b = i
+                        if b < 0:
+                            break
+                        held[a] = held[b] = True
+                        guess[a] = guess[b] = spots[j]
+                        meeting[meet, 0], meeting[meet, 1] = a, b
+                        meet += 1
                     mask = held
                 tries += 1
                 ok = newton = _correct(c1, guess, trial, work, mask)
@@ -460,12 +484,13 @@ def trace_branches(
                     # splitting does not settle it: eigenvalues at this gain, paired with the predictions
                     _pair(_eigen_roots(c1), guess, trial)
                     _polish(c1, trial)
-                    arrive = newton = False
+                    meet = 0
+                    newton = False
                     ok = True
                 if ok:
                     lead1 = den[0] + tgt * num[0]
                     # slopes for the next extrapolation only where Newton's method converged on simple roots
-                    has_new = newton and not arrive and tgt > 0.0 and _slopes(num, lead1, trial, tgt, work, m_new)
+                    has_new = newton and meet == 0 and tgt > 0.0 and _slopes(num, lead1, trial, tgt, work, m_new)
                     has_prev = has_m and k > 0.0
                     if has_prev:
                         u_prev = np.log(k)
@@ -474,7 +499,20 @@ def trace_branches(
                     z[:] = trial
                     m[:] = m_new
                     has_m = has_new
-                    pair_a, pair_b = (a, b) if arrive else (-1, -1)
+                    # pairs still within a whisker of their break gain keep leaving it by the square-root law
+                    kept = 0
+                    for q in range(npairs):
+                        if abs(tgt - pair_gain[q]) <= _LEAVING * pair_gain[q]:
+                            pairs[kept] = pairs[q]
+                            pair_spot[kept], pair_gain[kept] = pair_spot[q], pair_gain[q]
+                            kept += 1
+                    for q in range(meet):
+                        pairs[kept] = meeting[q]
+                        pair_spot[kept], pair_gain[kept] = spots[first + q], tgt
+                        kept += 1
+                    npairs = kept
+                    if npairs:
+                        has_m = False
                     k = tgt
                     c0[:] = c1
                     lead0 = lead1

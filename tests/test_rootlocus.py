@@ -168,3 +168,23 @@ def test_every_branch_point_is_a_root_to_round_off_on_random_loops():
             assert _same_roots(row, theirs, tol), (case, k)
         if gains is None:  # complex roots in exact conjugate pairs
             assert np.array_equal(np.sort_complex(rl.branches[-1]), np.sort_complex(rl.branches[-1].conj()))
+
+
+def test_two_break_aways_at_one_gain_against_the_closed_form():
+    # K/((s+1)(s+2)(s+3)(s+4)): with x = s + 2.5 the characteristic equation is
+    # x^4 - 2.5 x^2 + 0.5625 + K = 0, so x^2 = 1.25 +- sqrt(1 - K) (closed form derived here, the
+    # pole pattern is symmetric about -2.5): both pairs break away at K = 1, from s = -2.5 +- sqrt(5)/2.
+    g = control.tf([1.0], np.poly([-1.0, -2.0, -3.0, -4.0]))
+    rl = root_locus(g)
+    spots = sorted(round(b.s, 12) for b in rl.break_points)
+    assert spots == [round(-2.5 - math.sqrt(5) / 2, 12), round(-2.5 + math.sqrt(5) / 2, 12)]
+    assert all(abs(b.gain - 1.0) <= 1e-12 for b in rl.break_points)
+    for k, row in zip(rl.gains, rl.branches, strict=True):
+        x2 = 1.25 + np.array([1, -1]) * np.sqrt(complex(1.0 - k))
+        x = np.sqrt(x2)
+        expected = np.concatenate([x, -x]) - 2.5
+        # at the break gain the double roots are only defined to about sqrt(eps)
+        assert _same_roots(row, expected, 1e-7 if abs(k - 1.0) < 1e-6 else 1e-12), k
+    # every branch moves continuously through the two break points
+    step = np.abs(np.diff(rl.branches, axis=0)) / (1.0 + np.max(np.abs(rl.branches[1:]), axis=1, keepdims=True))
+    assert np.max(step) < 0.2
