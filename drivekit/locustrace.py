@@ -138,7 +138,7 @@ def _correct(c: np.ndarray, guess: np.ndarray, out: np.ndarray, w: np.ndarray, h
     it, about (n - 1) step**2 / gap for a simple root (gap: distance to the
     nearest other root), is below ``_TOL`` of the size of the roots. Roots
     marked in ``held`` keep their guess (a double root already known).
-    ``w`` is scratch space of shape (10, n).
+    ``w`` is scratch space with at least 8 rows of length n.
     """
     n = len(guess)
     sr, si, pr, pi, dr, di, gap2, quad = w[0], w[1], w[2], w[3], w[4], w[5], w[6], w[7]
