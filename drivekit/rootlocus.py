@@ -165,17 +165,15 @@ def _pade_roots(order: int) -> tuple[np.ndarray, np.ndarray]:
     return -poles, poles
 
 
-def _roots_batch(num: np.ndarray, den: np.ndarray, gains: np.ndarray) -> np.ndarray:
-    """Roots of den + K num for every K, by eigenvalues of stacked companion matrices."""
-    n = len(den) - 1
-    nump = np.concatenate([np.zeros(len(den) - len(num)), num])
-    coeffs = den[None, :] + gains[:, None] * nump[None, :]
-    coeffs = coeffs / coeffs[:, :1]
-    comp = np.zeros((len(gains), n, n))
-    comp[:, 0, :] = -coeffs[:, 1:]
-    if n > 1:
-        comp[:, np.arange(1, n), np.arange(n - 1)] = 1.0
-    return np.linalg.eigvals(comp)
+def _padded(num: np.ndarray, den: np.ndarray) -> np.ndarray:
+    """N(s) with leading zeros to the length of D(s), so that D + K N is a coefficient sum."""
+    return np.concatenate([np.zeros(len(den) - len(num)), num])
+
+
+def _closed_loop_roots(num: np.ndarray, den: np.ndarray, k: float) -> np.ndarray:
+    """The n roots of D + K N (NaN for those lost where the degree drops). [1/s]"""
+    roots = polynomial_roots(den + k * _padded(num, den))
+    return np.concatenate([roots, np.full(len(den) - 1 - len(roots), np.nan + 0j)])
 
 
 def _locus_roots(
@@ -184,20 +182,19 @@ def _locus_roots(
     """Continuous branches of den + K num = 0 for sorted gains K.
 
     Followed gain by gain from the roots at the first gain (the open-loop
-    ``poles`` when it is 0 and they are given, else eigenvalues of the
-    companion matrix) by the predictor-corrector in
+    ``poles`` when it is 0 and they are given, else the roots of D + K N
+    there) by the predictor-corrector in
     :mod:`drivekit.locustrace`, with the double roots at the ``breaks``
     (:class:`BreakPoint`) set where they are.
     """
     if poles is not None and gains[0] == 0.0:
         start = np.ascontiguousarray(poles, complex)
     else:
-        start = np.ascontiguousarray(_roots_batch(num, den, gains[:1])[0], complex)
+        start = np.ascontiguousarray(_closed_loop_roots(num, den, float(gains[0])), complex)
     order = sorted(breaks, key=lambda b: b.gain)
-    nump = np.concatenate([np.zeros(len(den) - len(num)), num])
-    return trace_branches(
-        den, nump, gains, start, np.array([b.gain for b in order]), np.array([b.s for b in order], dtype=float)
-    )
+    at = np.array([b.gain for b in order], dtype=float)
+    spots = np.array([b.s for b in order], dtype=float)
+    return trace_branches(den, _padded(num, den), gains, start, at, spots)
 
 
 def _crossing_polynomial(num: np.ndarray, den: np.ndarray) -> np.ndarray:
@@ -353,7 +350,7 @@ def root_locus(L: Any, gains: Any = None, pade_order: int = 3, points: int = 150
     centroid = (sum(p_ol.tolist()).real - sum(z_ol.tolist()).real) / q if q > 0 else math.nan
     angles = tuple((2 * i + 1) * 180.0 / q for i in range(q)) if q > 0 else ()
     at_one = int(np.searchsorted(k, 1.0))
-    now = branches[at_one] if at_one < len(k) and k[at_one] == 1.0 else _roots_batch(num, den, np.array([1.0]))[0]
+    now = branches[at_one] if at_one < len(k) and k[at_one] == 1.0 else _closed_loop_roots(num, den, 1.0)
     # slowest first; of a complex pair, the upper pole only
     poles = tuple(
         ClosedLoopPole(x, -x.real / abs(x) if abs(x) > 0 else 1.0, abs(x))
